@@ -398,16 +398,16 @@ class Scenario:
     breakers: Mapping[str, Breaker]
     reversers: Mapping[str, Reverser]
     track: Track
-    rolling_stock: Mapping[str, Vehicle] = EMPTY
-    trains: Mapping[str, Train] = EMPTY
+    rolling_stock: Mapping[str, Vehicle] = field(default_factory=lambda: EMPTY)
+    trains: Mapping[str, Train] = field(default_factory=lambda: EMPTY)
     faults: tuple[Fault, ...] = ()
     actions: tuple[Action, ...] = ()
-    vary: Mapping[str, object] = EMPTY
+    vary: Mapping[str, object] = field(default_factory=lambda: EMPTY)
     samples: int = 0
     t_margin_required_s: float = 0.0
     path: str = "<memory>"
     sha256: str = ""
-    locations: Mapping[tuple, tuple[int, int]] = EMPTY
+    locations: Mapping[tuple, tuple[int, int]] = field(default_factory=lambda: EMPTY)
 
     # ------------------------------------------------------------- queries
     def device_kind(self, name: str) -> Optional[str]:
