@@ -41,17 +41,20 @@ EXIT_PASS, EXIT_FAIL, EXIT_INPUT, EXIT_INTERNAL = 0, 1, 2, 3
 
 
 # ----------------------------------------------------------------- helpers
-def _quantity_arg(dimension: str, unit: str) -> Callable[[str], float]:
+def _quantity_arg(dimension: str) -> Callable[[str], float]:
     """An argparse type turning ``"0.5m"`` / ``"250 mm"`` into an SI float."""
 
     def parse(text: str) -> float:
-        from sim.units import parse_cli_quantity
+        from sim import units
 
+        dim = {"length": units.LENGTH, "time": units.TIME, "resistance": units.RESISTANCE}[dimension]
         try:
-            return parse_cli_quantity(text, unit)
-        except ValueError as exc:
-            raise argparse.ArgumentTypeError(
-                f"expected {dimension} such as '0.5 {unit}', got {text!r} ({exc})") from None
+            value = units.parse_quantity(text, dim)
+        except units.QuantityError as exc:
+            raise argparse.ArgumentTypeError(str(exc)) from None
+        if value <= 0:
+            raise argparse.ArgumentTypeError(f"expected {dim.label} above zero, got {text!r}")
+        return value
 
     return parse
 
@@ -240,22 +243,22 @@ def build_parser() -> argparse.ArgumentParser:
 
     c = sub.add_parser("check", help="static and circuit checks of a layout")
     common(c, "print the railfault-check/1 JSON object")
-    c.add_argument("--step", type=_quantity_arg("a length", "m"), default=0.5,
+    c.add_argument("--step", type=_quantity_arg("length"), default=0.5,
                    help="largest distance between coin-test points (default 0.5 m)")
     c.set_defaults(func=cmd_check)
 
     f = sub.add_parser("faultmap", help="prospective short-circuit current everywhere")
     common(f, "print the fault-current map as JSON")
-    f.add_argument("--step", type=_quantity_arg("a length", "m"), default=0.5,
+    f.add_argument("--step", type=_quantity_arg("length"), default=0.5,
                    help="largest distance between points (default 0.5 m)")
-    f.add_argument("--coin", type=_quantity_arg("a resistance", "ohm"), default=0.01,
+    f.add_argument("--coin", type=_quantity_arg("resistance"), default=0.01,
                    help="resistance of the short (default 0.01 ohm)")
     f.set_defaults(func=cmd_faultmap)
 
     r = sub.add_parser("run", help="play the scenario in the event simulator")
     common(r, "print the railfault-result/1 JSON object")
     r.add_argument("--events", action="store_true", help="keep and print every event")
-    r.add_argument("--until", type=_quantity_arg("a time", "s"), default=None,
+    r.add_argument("--until", type=_quantity_arg("time"), default=None,
                    help="stop at this time (default: the scenario's duration)")
     r.set_defaults(func=cmd_run)
 

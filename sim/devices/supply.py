@@ -1,0 +1,192 @@
+"""Power supply current limit: constant-current, hiccup or latch.
+
+The supply observes its load current (``observe``) and, optionally, its
+terminal voltage (``observe_supply_v``). Over ``i_limit_a``:
+
+``constant-current``
+    The supply holds its current at the limit and its voltage collapses:
+    event ``limit`` (``active: True``); ``limiting`` becomes true and the engine
+    solves with ``set_supply(name, i_limit_a=...)``. While limiting, an observed
+    current at the limit (within 1e-9 relative) keeps it there. It leaves the
+    limit (``limit``, ``active: False``) when the observed current falls under
+    the limit (an engine that reports the prospective, unlimited current) or
+    when the observed terminal voltage reaches ``v_emf - i_limit * r`` (the
+    voltage mode would then deliver no more than the limit: the load has gone;
+    needed when the circuit models the limit as an ideal current source).
+``hiccup``
+    Output off (``off``), on again ``t_off_s`` later (``on``); the engine
+    observes the overload again after ``on`` and the cycle repeats as long as
+    it stays.
+``latch``
+    Output off (``off``) until an operator reset (``reset``, then ``on``).
+
+For hiccup and latch, ``t_limit_s`` > 0 (a model field, default 0) makes the
+supply first hold its limit at constant current (``limit`` events as above)
+and switch off only if the overload lasts ``t_limit_s``; with 0 it switches off
+at once.
+"""
+from __future__ import annotations
+
+import math
+from typing import Optional
+
+from sim.model import Supply
+from sim.devices.events import DeviceEvent
+from sim.devices.sensing import T_TOL_S
+
+_LIMIT_REL = 1e-9
+
+
+class SupplyDevice:
+    """A supply's state machine (protocol as in :mod:`sim.devices.machine`).
+
+    Parameters
+    ----------
+    model : sim.model.Supply
+    t0_s : float
+        Start time (output on).
+    """
+
+    kind = "supply"
+
+    def __init__(self, model: Supply, t0_s: float = 0.0):
+        self.model = model
+        self.name = model.name
+        self.i_limit_a = model.i_limit_a
+        self.t_limit_s = float(getattr(model, "t_limit_s", 0.0) or 0.0)
+        self.on = True
+        self.limiting = False
+        self.swapped = False
+        self.trips = 0
+        self.peak_a = 0.0
+        self._t = t0_s
+        self._i = 0.0
+        self._released = False                    # limiting, but the voltage says the load went
+        self._t_limit_since: Optional[float] = None
+        self._t_on: Optional[float] = None        # hiccup: back on
+
+    @property
+    def closed(self) -> bool:
+        """Whether the output is on."""
+        return self.on
+
+    @property
+    def t_s(self) -> float:
+        return self._t
+
+    # ------------------------------------------------------------ inputs
+    def _over(self) -> bool:
+        if self.limiting:
+            return (not self._released) and self._i >= self.i_limit_a * (1.0 - _LIMIT_REL)
+        return self._i > self.i_limit_a
+
+    def _limits_first(self) -> bool:
+        return self.model.on_limit == "constant-current" or self.t_limit_s > 0.0
+
+    def observe(self, t_s: float, i_a: float) -> None:
+        """The load current is ``i_a`` from ``t_s`` on."""
+        self._check_time(t_s)
+        self._t = max(self._t, t_s)
+        self._i = float(abs(i_a))
+        self.peak_a = max(self.peak_a, self._i)
+
+    def observe_supply_v(self, t_s: float, v_v: float) -> None:
+        """The terminal voltage is ``v_v`` from ``t_s`` on (ends a constant-current limit)."""
+        self._check_time(t_s)
+        self._t = max(self._t, t_s)
+        if self.limiting:
+            v_knee = self.model.v_emf_v - self.i_limit_a * self.model.r_ohm
+            self._released = v_v >= v_knee * (1.0 - _LIMIT_REL)
+
+    # ------------------------------------------------------------ protocol
+    def _next(self):
+        """``(time, kind)`` of the next transition, or ``None``."""
+        c = []
+        if self.on:
+            want = self._over()
+            if self._limits_first():
+                if want != self.limiting:
+                    c.append((self._t, 0, "limit"))
+                elif self.limiting and self.model.on_limit != "constant-current":
+                    c.append((self._t_limit_since + self.t_limit_s, 1, "off"))
+            elif want:
+                c.append((self._t, 1, "off"))
+        elif self._t_on is not None:
+            c.append((self._t_on, 2, "on"))
+        return min(c) if c else None
+
+    def next_deadline(self) -> Optional[float]:
+        c = self._next()
+        return None if c is None else max(c[0], self._t)
+
+    def advance(self, t_s: float) -> list[DeviceEvent]:
+        if t_s < self._t - T_TOL_S:
+            raise ValueError(f"{self.name}: advance({t_s!r}) is before the last time {self._t!r}")
+        events: list[DeviceEvent] = []
+        for _ in range(1000):
+            c = self._next()
+            if c is None or c[0] > t_s + T_TOL_S:
+                break
+            t = max(c[0], self._t)
+            self._t = t
+            if c[2] == "limit":
+                self.limiting = not self.limiting
+                self._released = False
+                self._t_limit_since = t if self.limiting else None
+                events.append(DeviceEvent(t, self.name, "limit",
+                                          {"active": self.limiting, "i_a": self._i,
+                                           "i_limit_a": self.i_limit_a}))
+            elif c[2] == "off":
+                hiccup = self.model.on_limit == "hiccup"
+                self.on = False
+                self.limiting = False
+                self._released = False
+                self._t_limit_since = None
+                self.trips += 1
+                self._t_on = t + self.model.t_off_s if hiccup else None
+                events.append(DeviceEvent(t, self.name, "off",
+                                          {"i_a": self._i,
+                                           "on_in_s": self.model.t_off_s if hiccup else None}))
+            else:
+                self._t_on = None
+                self.on = True
+                events.append(DeviceEvent(t, self.name, "on", {}))
+        else:
+            raise RuntimeError(f"{self.name}: too many transitions at one time")
+        self._t = max(self._t, t_s)
+        return events
+
+    def reset(self, t_s: float) -> list[DeviceEvent]:
+        """Operator reset: an off supply comes on at once."""
+        self._check_time(t_s)
+        self._t = max(self._t, t_s)
+        events = [DeviceEvent(self._t, self.name, "reset", {})]
+        if not self.on:
+            self.on = True
+            self._t_on = None
+            events.append(DeviceEvent(self._t, self.name, "on", {}))
+        return events
+
+    def trip_after_s(self, i_a: float, t_s: Optional[float] = None) -> float:
+        """Time until the output goes off if ``i_a`` flowed from ``t_s`` on.
+
+        Hiccup/latch over the limit: ``t_limit_s`` (less what has already run
+        of it); 0 when already off; ``inf`` otherwise (a constant-current
+        supply never switches off).
+        """
+        if not self.on:
+            return 0.0
+        if self.model.on_limit == "constant-current" or not abs(i_a) > self.i_limit_a:
+            return math.inf
+        t0 = self._t if t_s is None else max(t_s, self._t)
+        if self.limiting and self._t_limit_since is not None:
+            return max(0.0, self._t_limit_since + self.t_limit_s - t0)
+        return self.t_limit_s
+
+    def _check_time(self, t_s: float) -> None:
+        if t_s < self._t - T_TOL_S:
+            raise ValueError(f"{self.name}: time {t_s!r} is before the last time {self._t!r}")
+        nd = self.next_deadline()
+        if nd is not None and t_s > nd + T_TOL_S:
+            raise ValueError(f"{self.name}: observation at {t_s!r} s is past its deadline "
+                             f"{nd!r} s; advance({nd!r}) first")
