@@ -149,6 +149,9 @@ class Supply:
     i_limit_a: float = math.inf
     on_limit: str = "constant-current"
     t_off_s: float = 1.0
+    #: hiccup/latch: the overload must last this long before the output goes
+    #: off; meanwhile the supply holds its limit (constant current). 0: at once.
+    t_limit_s: float = 0.0
 
 
 @dataclass(frozen=True)
