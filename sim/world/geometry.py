@@ -1,0 +1,459 @@
+"""A train's route as a 1-D coordinate.
+
+The route coordinate ``s`` (metres) is the distance the train's *front* has
+travelled since departure: it grows monotonically, through reversals. The
+route is cut at its reversals into *legs*. Each leg lays the sections its
+front passes along a straight line with its own coordinate ``u`` (metres,
+growing in the direction of travel); within leg ``k`` the front stands at
+``u = u_start + (s - s_start)``.
+
+Joining consecutive route sections
+----------------------------------
+The train leaves a section by the end it heads to; the next route section
+must have an end joined to that one (a joint of ``scn.track.joints``); the
+train enters by the joined end and so heads to the section's other end. When
+several joints qualify (a turnout whose routes both lead to the next section,
+such as the throat of a balloon), the one that lets the rest of the route
+continue is taken, the lowest joint index first. A route whose consecutive
+sections do not join raises :class:`sim.errors.ScenarioError` located at
+``trains.<name>.route``.
+
+Where the train stops and reverses
+----------------------------------
+* A train runs until its front reaches the end it heads to of the *last*
+  route section, and stops there: ``route_length_m`` is that front distance.
+* At a :class:`sim.model.Reversal` step the train runs on until its front
+  reaches the end it heads to of the section it is in (the far end of a wye
+  tail, say), stands for ``t_wait_s`` and runs back the other way. The old rear
+  becomes the front; the axles stay where they are, only the direction flips.
+  The heading in that section flips, so a train reversing in a stub leaves by
+  the end it entered. The next route section must join that end (a route that
+  names the reversing section again right after the reversal is read as the
+  same section). Two reversals in a row shuttle the train: after the first it
+  runs to the section's other end, reverses again and heads as it came.
+* Leg ``k+1`` starts its line at the reversal point (``u = 0``) and lays the
+  reversing section back to the end it now heads to, then the next route
+  sections. At the start of leg ``k+1`` the train covers ``0 <= u <= L``
+  (``L`` its length), its new front at ``u = L``. The track under the train
+  must be the same on both lines: a train longer than the room it has in the
+  reversing section, whose rear therefore stands beyond the end it must leave
+  by, cannot follow a route that turns off there, and is refused with a
+  located problem.
+* At the start, leg 0 puts the front at ``u = 0`` and lays the track behind
+  the start far enough to hold the whole train, following the joint at the
+  rear end of each section (the lowest joint index at a turnout). A train that
+  does not fit behind a dead end is refused at ``trains.<name>.start``.
+
+Points exactly at a joint belong to the piece ahead of the joint, except at
+the end of a leg (the reversal point, the route end), which belongs to the
+last piece.
+"""
+from __future__ import annotations
+
+from bisect import bisect_right
+from dataclasses import dataclass, field
+from typing import Optional
+
+from sim.errors import Problem, ScenarioError
+from sim.model import Joint, Reversal, Scenario, Train
+
+OTHER = {"a": "b", "b": "a"}
+_TOL_M = 1e-9
+
+
+@dataclass(frozen=True)
+class Piece:
+    """A stretch of one section laid along a leg's line.
+
+    ``at(u) = at_lo_m + direction * (u - u_lo_m)`` is the section coordinate
+    (metres from its ``a`` end) of line point ``u``; ``direction`` is +1 when
+    the train travels from ``a`` to ``b`` there, -1 from ``b`` to ``a``.
+    """
+
+    section: str
+    u_lo_m: float
+    u_hi_m: float
+    at_lo_m: float
+    direction: int
+
+    def at(self, u_m: float) -> float:
+        """Section coordinate of line point ``u_m``."""
+        return self.at_lo_m + self.direction * (u_m - self.u_lo_m)
+
+    @property
+    def heading(self) -> str:
+        """The section end the train heads to on this piece."""
+        return "b" if self.direction > 0 else "a"
+
+
+@dataclass(frozen=True)
+class JointMark:
+    """A joint crossed between two consecutive pieces, at line point ``u_m``."""
+
+    u_m: float
+    joint: Joint
+
+
+@dataclass(frozen=True)
+class Leg:
+    """The part of a route between two reversals, laid along one line.
+
+    Attributes
+    ----------
+    index : int
+        0 for the first leg.
+    pieces : tuple of Piece
+        Contiguous, in ``u`` order.
+    joints : tuple of JointMark
+        Every joint between consecutive pieces, in ``u`` order.
+    s_start_m, s_end_m : float
+        Route coordinates of the front at the start and at the end of the leg.
+    u_start_m : float
+        Line coordinate of the front at ``s_start_m``.
+    flipped : bool
+        True after an odd number of reversals: the front is the consist's rear
+        vehicle and an axle at offset ``d`` behind the original front is
+        ``L - d`` behind the current one.
+    """
+
+    index: int
+    pieces: tuple[Piece, ...]
+    joints: tuple[JointMark, ...]
+    s_start_m: float
+    s_end_m: float
+    u_start_m: float
+    flipped: bool
+    _u_los: tuple[float, ...] = field(init=False, repr=False, compare=False)
+
+    def __post_init__(self) -> None:
+        object.__setattr__(self, "_u_los", tuple(p.u_lo_m for p in self.pieces))
+
+    @property
+    def u_end_m(self) -> float:
+        """Line coordinate of the end of the leg (its last piece's end)."""
+        return self.pieces[-1].u_hi_m
+
+    def u_of(self, s_m: float) -> float:
+        """Line coordinate of the front at route coordinate ``s_m``."""
+        return self.u_start_m + (s_m - self.s_start_m)
+
+    def s_of(self, u_m: float) -> float:
+        """Route coordinate at which the front stands at line point ``u_m``."""
+        return self.s_start_m + (u_m - self.u_start_m)
+
+    def piece_at(self, u_m: float) -> Piece:
+        """The piece holding line point ``u_m`` (the one ahead at a joint)."""
+        i = bisect_right(self._u_los, u_m) - 1
+        return self.pieces[min(max(i, 0), len(self.pieces) - 1)]
+
+
+@dataclass(frozen=True)
+class ReversalPoint:
+    """Where the train reverses: front distance ``s_m``, standing ``t_wait_s``."""
+
+    s_m: float
+    t_wait_s: float
+    section: str
+
+
+@dataclass(frozen=True)
+class RouteStep:
+    """One step of a resolved route.
+
+    A section step has ``section``, ``enter_end`` (``None`` for the start
+    section), ``heading`` (the end it heads to) and the ``joint`` crossed to
+    enter it. A reversal step has ``reversal`` set and ``section`` the section
+    it reverses in, ``heading`` the end it heads to afterwards.
+    """
+
+    section: str
+    heading: str
+    enter_end: Optional[str] = None
+    joint: Optional[Joint] = None
+    reversal: Optional[Reversal] = None
+
+
+@dataclass(frozen=True)
+class RoutePath:
+    """A train's route laid out: legs, reversal points and the route length."""
+
+    train: str
+    train_length_m: float
+    steps: tuple[RouteStep, ...]
+    legs: tuple[Leg, ...]
+    reversals: tuple[ReversalPoint, ...]
+
+    @property
+    def route_length_m(self) -> float:
+        """Front distance from departure to the end of the route."""
+        return self.legs[-1].s_end_m
+
+    def leg_at(self, s_m: float, after_reversal: bool = False) -> Leg:
+        """The leg the train is on at route coordinate ``s_m``.
+
+        At a reversal point the train is on the leg it arrives by, unless
+        ``after_reversal`` asks for the leg it leaves by.
+        """
+        if after_reversal:
+            for leg in self.legs:
+                if s_m < leg.s_end_m:
+                    return leg
+            return self.legs[-1]
+        for leg in self.legs:
+            if s_m <= leg.s_end_m:
+                return leg
+        return self.legs[-1]
+
+
+# ------------------------------------------------------------------ joining
+def joins(scn: Scenario, section: str, end: str, other: str) -> list[tuple[Joint, str]]:
+    """Joints from ``section.end`` to an end of ``other``, lowest index first.
+
+    Returns ``(joint, other_end)`` pairs, ``other_end`` being the end of
+    ``other`` the joint reaches.
+    """
+    out: list[tuple[Joint, str]] = []
+    for j in scn.track.joints:
+        e0, e1 = j.ends
+        if e0.section == section and e0.end == end and e1.section == other:
+            out.append((j, e1.end))
+        elif e1.section == section and e1.end == end and e0.section == other:
+            out.append((j, e0.end))
+    out.sort(key=lambda pair: pair[0].index)
+    return out
+
+
+def joints_at(scn: Scenario, section: str, end: str) -> list[tuple[Joint, str, str]]:
+    """Every joint at ``section.end``: ``(joint, other_section, other_end)``."""
+    out: list[tuple[Joint, str, str]] = []
+    for j in scn.track.joints:
+        e0, e1 = j.ends
+        if e0.section == section and e0.end == end:
+            out.append((j, e1.section, e1.end))
+        elif e1.section == section and e1.end == end:
+            out.append((j, e0.section, e0.end))
+    out.sort(key=lambda item: item[0].index)
+    return out
+
+
+def _problem(scn: Scenario, path: tuple, message: str) -> Problem:
+    loc = scn.locations.get(tuple(path))
+    return Problem(file=scn.path, path=".".join(str(p) for p in path), message=message,
+                   line=loc[0] if loc else None, column=loc[1] if loc else None)
+
+
+def _route_error(scn: Scenario, train: Train, message: str) -> ScenarioError:
+    return ScenarioError([_problem(scn, ("trains", train.name, "route"), message)])
+
+
+def _normalise(scn: Scenario, train: Train) -> list:
+    """Route items starting with the start section, repeats after reversals dropped."""
+    sections = scn.track.sections
+    problems: list[Problem] = []
+    start = train.start
+    if start.section not in sections:
+        problems.append(_problem(scn, ("trains", train.name, "start"),
+                                 f"start section {start.section!r} is not a section of the track"))
+    elif not 0.0 <= start.at_m <= sections[start.section].length_m:
+        problems.append(_problem(scn, ("trains", train.name, "start"),
+                                 f"start at {start.at_m:g} m is outside section {start.section!r} "
+                                 f"(0 m to {sections[start.section].length_m:g} m)"))
+    if start.heading not in OTHER:
+        problems.append(_problem(scn, ("trains", train.name, "start"),
+                                 f"heading must be 'a' or 'b', got {start.heading!r}"))
+    items = list(train.route)
+    for k, item in enumerate(items):
+        if not isinstance(item, Reversal) and item not in sections:
+            problems.append(_problem(scn, ("trains", train.name, "route"),
+                                     f"route item {k} ({item!r}) is not a section of the track"))
+    if not items or isinstance(items[0], Reversal):
+        items.insert(0, start.section)
+    elif items[0] != start.section:
+        problems.append(_problem(scn, ("trains", train.name, "route"),
+                                 f"the route starts in {items[0]!r} but the train starts in "
+                                 f"{start.section!r}"))
+    if problems:
+        raise ScenarioError(problems)
+    out: list = []
+    last_section = None
+    after_reversal = False
+    for item in items:
+        if isinstance(item, Reversal):
+            out.append(item)
+            after_reversal = True
+            continue
+        if after_reversal and item == last_section:
+            after_reversal = False
+            continue
+        out.append(item)
+        last_section = item
+        after_reversal = False
+    return out
+
+
+def resolve_route(scn: Scenario, train: Train) -> tuple[RouteStep, ...]:
+    """The route as steps: the joint crossed into each section and the heading.
+
+    Raises
+    ------
+    ScenarioError
+        Consecutive route sections that do not join, located at
+        ``trains.<name>.route``.
+    """
+    items = _normalise(scn, train)
+    failed: set = set()
+    worst: list = [-1, ""]
+
+    def note(k: int, message: str) -> None:
+        if k > worst[0]:
+            worst[0], worst[1] = k, message
+
+    def solve(i: int, sec: str, head: str) -> Optional[list[RouteStep]]:
+        # items[i] has been done: the train is in ``sec`` heading to ``head``.
+        if i == len(items) - 1:
+            return []
+        key = (i, sec, head)
+        if key in failed:
+            return None
+        nxt = items[i + 1]
+        if isinstance(nxt, Reversal):
+            back = OTHER[head]
+            rest = solve(i + 1, sec, back)
+            if rest is not None:
+                return [RouteStep(sec, back, reversal=nxt)] + rest
+        else:
+            cands = joins(scn, sec, head, nxt)
+            if not cands:
+                note(i + 1, f"section {nxt!r} (route item {i + 1}) does not join {sec!r} at "
+                            f"{sec}.{head}, the end the train heads to there")
+            for joint, end in cands:
+                rest = solve(i + 1, nxt, OTHER[end])
+                if rest is not None:
+                    return [RouteStep(nxt, OTHER[end], enter_end=end, joint=joint)] + rest
+        failed.add(key)
+        return None
+
+    first = RouteStep(train.start.section, train.start.heading)
+    rest = solve(0, train.start.section, train.start.heading)
+    if rest is None:
+        raise _route_error(scn, train, worst[1] or "the route's sections do not join")
+    return (first,) + tuple(rest)
+
+
+# ------------------------------------------------------------------- laying
+def build_route(scn: Scenario, train: Train, train_length_m: float) -> RoutePath:
+    """Lay ``train``'s route out in legs (see the module notes).
+
+    Parameters
+    ----------
+    scn : Scenario
+    train : sim.model.Train
+    train_length_m : float
+        The consist's length, front to rear.
+
+    Returns
+    -------
+    RoutePath
+
+    Raises
+    ------
+    ScenarioError
+        Sections that do not join (``trains.<name>.route``), a train that does
+        not fit behind its start (``trains.<name>.start``) or that cannot leave
+        a reversing section the way its route goes (``trains.<name>.route``).
+
+    Notes
+    -----
+    Cost linear in the route length plus, once per train, a scan of the
+    joints for each route step.
+    """
+    steps = resolve_route(scn, train)
+    sections = scn.track.sections
+    length = float(train_length_m)
+    start = train.start
+    sec0 = sections[start.section]
+    d0 = +1 if start.heading == "b" else -1
+    fwd = sec0.length_m - start.at_m if d0 > 0 else start.at_m
+    room = start.at_m if d0 > 0 else sec0.length_m - start.at_m
+
+    # leg 0: the start section, then the track behind the start
+    pieces: list[Piece] = [Piece(start.section, -room, fwd, start.at_m - d0 * room, d0)]
+    marks: list[JointMark] = []
+    need = length - room
+    cur, rear_end, u = start.section, OTHER[start.heading], -room
+    guard = 0
+    while need > 0.0:
+        guard += 1
+        around = joints_at(scn, cur, rear_end)
+        if not around or guard > 10 * max(1, len(sections)):
+            raise ScenarioError([_problem(
+                scn, ("trains", train.name, "start"),
+                f"train {train.name!r} ({length:g} m) does not fit behind its start: its rear "
+                f"would stand beyond the dead end {cur}.{rear_end}")])
+        joint, other, oend = around[0]
+        olen = sections[other].length_m
+        d = +1 if oend == "b" else -1
+        at_f = olen if oend == "b" else 0.0
+        pieces.insert(0, Piece(other, u - olen, u, at_f - d * olen, d))
+        marks.insert(0, JointMark(u, joint))
+        u -= olen
+        need -= olen
+        cur, rear_end = other, OTHER[oend]
+
+    legs: list[Leg] = []
+    reversals: list[ReversalPoint] = []
+    s_start, u_start, flipped = 0.0, 0.0, False
+    for step in steps[1:]:
+        if step.reversal is None:
+            u0 = pieces[-1].u_hi_m
+            slen = sections[step.section].length_m
+            d = +1 if step.heading == "b" else -1
+            at_lo = 0.0 if step.enter_end == "a" else slen
+            marks.append(JointMark(u0, step.joint))
+            pieces.append(Piece(step.section, u0, u0 + slen, at_lo, d))
+            continue
+        leg = Leg(len(legs), tuple(pieces), tuple(marks), s_start,
+                  s_start + (pieces[-1].u_hi_m - u_start), u_start, flipped)
+        legs.append(leg)
+        reversals.append(ReversalPoint(leg.s_end_m, float(step.reversal.t_wait_s), step.section))
+        last = pieces[-1]
+        slen = sections[last.section].length_m
+        pieces = [Piece(last.section, 0.0, slen, last.at(last.u_hi_m), -last.direction)]
+        marks = []
+        s_start, u_start, flipped = leg.s_end_m, length, not flipped
+    legs.append(Leg(len(legs), tuple(pieces), tuple(marks), s_start,
+                    s_start + (pieces[-1].u_hi_m - u_start), u_start, flipped))
+    for k in range(1, len(legs)):
+        if not _same_track_under_train(legs[k - 1], legs[k], length):
+            rev = reversals[k - 1]
+            room_m = sections[rev.section].length_m
+            raise _route_error(scn, train, (
+                f"train {train.name!r} ({length:g} m) reverses in {rev.section!r}, which gives "
+                f"it {room_m:g} m: its other end stands beyond the end it must leave by, so it "
+                f"cannot follow the route after the reversal"))
+    return RoutePath(train.name, length, steps, tuple(legs), tuple(reversals))
+
+
+def _same_track_under_train(old: Leg, new: Leg, length_m: float) -> bool:
+    """Whether the train's body at the end of ``old`` lies on ``new``'s ``[0, L]``."""
+    if length_m <= 0.0:
+        return True
+    u_end = old.u_end_m
+    if new.u_end_m < length_m - _TOL_M or old.pieces[0].u_lo_m > u_end - length_m + _TOL_M:
+        return False
+    ws = {0.0, length_m}
+    for p in old.pieces:
+        for u in (p.u_lo_m, p.u_hi_m):
+            if 0.0 < u_end - u < length_m:
+                ws.add(u_end - u)
+    for p in new.pieces:
+        for u in (p.u_lo_m, p.u_hi_m):
+            if 0.0 < u < length_m:
+                ws.add(u)
+    pts = sorted(ws)
+    for w0, w1 in zip(pts, pts[1:]):
+        w = 0.5 * (w0 + w1)
+        po, pn = old.piece_at(u_end - w), new.piece_at(w)
+        if po.section != pn.section or abs(po.at(u_end - w) - pn.at(w)) > 1e-6:
+            return False
+    return True
