@@ -21,6 +21,7 @@ integer to that integer (:func:`ceil_tol`).
 from __future__ import annotations
 
 import math
+import sys
 from typing import Optional
 
 #: Relative tolerance used to snap a ratio to an integer before ``ceil``.
@@ -52,8 +53,16 @@ def reading_a(i_a: float, full_scale_a: float = math.inf) -> float:
 
 
 def sample_index_at_or_after(t_s: float, period_s: float, phase: float) -> int:
-    """Index ``k`` of the first sample ``(k + phase) * period_s`` at or after ``t_s``."""
-    return ceil_tol(t_s / period_s - phase)
+    """Index ``k`` of the first sample ``(k + phase) * period_s`` at or after ``t_s``.
+
+    An instant within :data:`T_TOL_S` of a sample is that sample. The tolerance is
+    absolute in time (not relative to ``k``), so it does not widen as the clock runs.
+    """
+    x = t_s / period_s - phase
+    r = round(x)
+    if abs(x - r) <= max(T_TOL_S / period_s, 4.0 * sys.float_info.epsilon * abs(x)):
+        return int(r)
+    return int(math.ceil(x))
 
 
 def sample_at_or_after(t_s: float, period_s: float, phase: float) -> float:
