@@ -1,1 +1,0 @@
-"""railfault: report."""
