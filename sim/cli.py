@@ -90,16 +90,21 @@ def _print_problems(problems: Sequence[Problem]) -> None:
         sys.stderr.write(f"  {p}\n")
 
 
-def _table(headers: Sequence[str], rows: Sequence[Sequence[str]]) -> str:
-    """A plain fixed-width text table."""
+def _table(headers: Sequence[str], rows: Sequence[Sequence[str]], wrap: int = 60) -> str:
+    """A plain fixed-width text table; cells longer than ``wrap`` characters wrap."""
+    import textwrap
+
+    cells = [[textwrap.wrap(c, wrap) or [""] for c in row] for row in rows]
     widths = [len(h) for h in headers]
-    for row in rows:
-        for i, cell in enumerate(row):
-            widths[i] = max(widths[i], len(cell))
-    line = "  ".join(h.ljust(w) for h, w in zip(headers, widths))
-    out = [line.rstrip(), "  ".join("-" * w for w in widths)]
-    for row in rows:
-        out.append("  ".join(c.ljust(w) for c, w in zip(row, widths)).rstrip())
+    for row in cells:
+        for i, lines in enumerate(row):
+            widths[i] = max(widths[i], *(len(x) for x in lines))
+    out = ["  ".join(h.ljust(w) for h, w in zip(headers, widths)).rstrip(),
+           "  ".join("-" * w for w in widths)]
+    for row in cells:
+        for k in range(max(len(lines) for lines in row)):
+            out.append("  ".join((lines[k] if k < len(lines) else "").ljust(w)
+                                 for lines, w in zip(row, widths)).rstrip())
     return "\n".join(out)
 
 
