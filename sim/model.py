@@ -161,7 +161,8 @@ class Booster:
     ``phase`` is +1 (normal) or -1 (inverted). ``reverse_on_short`` makes the
     booster swap its own output first (taking ``t_swap_s``) and trip only if
     the short stays. ``v_undervoltage_v`` is the supply voltage below which it
-    drops out.
+    drops out, after it has stayed below it for ``t_undervoltage_s`` (the
+    hold-up of the booster's own supply capacitors; 0: at once, the worst case).
     """
 
     name: str
@@ -179,6 +180,7 @@ class Booster:
     t_hold_off_s: float = 0.05
     v_undervoltage_v: float = 7.0
     wire: Wire = field(default_factory=Wire)
+    t_undervoltage_s: float = 0.0
 
 
 @dataclass(frozen=True)

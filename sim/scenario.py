@@ -611,7 +611,8 @@ class _Builder:
                 sense=self.sense(b.get("sense")), trip=self.trip(b["trip"]),
                 thermal=self.thermal(b.get("thermal")), restart=self.restart(b["restart"]),
                 reverse_on_short=bool(b["reverse_on_short"]),
-                v_undervoltage_v=b["undervoltage"], wire=self.wire(b.get("wire")), **extra)
+                v_undervoltage_v=b["undervoltage"], wire=self.wire(b.get("wire")),
+                t_undervoltage_s=b["undervoltage_after"], **extra)
         return out
 
     def breakers(self) -> dict:

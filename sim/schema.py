@@ -707,6 +707,9 @@ BOOSTER = Record("booster", {
     "reverse": Field(REVERSE, None, "settings of reverse_on_short"),
     "undervoltage": Field(_q(U.VOLTAGE, "nonneg"), "7 V", "supply voltage below which it "
                                                           "drops out", "from memory"),
+    "undervoltage_after": Field(_q(U.TIME, "nonneg"), "0 s", "how long the supply must stay "
+                                "under `undervoltage` before it drops out (hold-up of its "
+                                "supply capacitors); 0 s is the worst case"),
     "wire": Field(WIRE_RUN, None, "the run from the supply; absent: negligible"),
 }, check=_check_reverse)
 BREAKER = Record("breaker", {

@@ -52,6 +52,6 @@ class BoosterDevice(ProtectionMachine):
         if model.v_undervoltage_v > 0.0:
             uv = UndervoltageSetting(model.v_undervoltage_v,
                                      UV_RETURN_FACTOR * model.v_undervoltage_v,
-                                     UV_RETURN_DELAY_S)
+                                     UV_RETURN_DELAY_S, model.t_undervoltage_s)
         super().__init__(model.name, model.trip, model.sense, phase, model.restart,
                          thermal=model.thermal, swap=swap, undervoltage=uv, t0_s=t0_s)

@@ -75,12 +75,14 @@ class SwapSetting:
 
 @dataclass(frozen=True)
 class UndervoltageSetting:
-    """Drops out under ``v_dropout_v``; returns ``t_return_s`` after the supply
-    voltage has come back to at least ``v_return_v`` (hysteresis)."""
+    """Drops out once the supply voltage has stayed under ``v_dropout_v`` for
+    ``t_drop_s`` (0: at once); returns ``t_return_s`` after the supply voltage
+    has come back to at least ``v_return_v`` (hysteresis)."""
 
     v_dropout_v: float
     v_return_v: float
     t_return_s: float
+    t_drop_s: float = 0.0
 
 
 class ProtectionMachine:
@@ -203,7 +205,7 @@ class ProtectionMachine:
         else:
             if v_v < uv.v_dropout_v:
                 if self._t_uv_drop is None:
-                    self._t_uv_drop = t_s
+                    self._t_uv_drop = t_s + uv.t_drop_s
             else:
                 self._t_uv_drop = None
 
