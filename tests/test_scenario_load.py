@@ -23,7 +23,9 @@ from sim.errors import ScenarioError
 from sim.scenario import load, loads
 
 ROOT = Path(__file__).resolve().parents[1]
-DEMO = ROOT / "scenarios" / "cinder-ridge.yaml"
+# A frozen copy of the first demo layout, so that editing the bundled demo does not
+# change these hand-checked values.
+DEMO = ROOT / "tests" / "scenarios" / "load" / "loader-reference.yaml"
 
 MINIMAL = """\
 format: railfault/1

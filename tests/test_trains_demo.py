@@ -9,7 +9,8 @@ from sim.errors import ScenarioError
 from sim.scenario import load, loads
 from sim.world.trains import Motion, build_trains
 
-DEMO = Path(__file__).resolve().parents[1] / "scenarios" / "cinder-ridge.yaml"
+# A frozen copy of the first demo layout (its routes are summed by hand below).
+DEMO = Path(__file__).resolve().parents[1] / "tests" / "scenarios" / "load" / "loader-reference.yaml"
 
 
 def test_demo_trains_build_and_their_routes_add_up():
