@@ -1,0 +1,341 @@
+"""Events, the bounded event summary, and the run Result with its JSON.
+
+A run produces a stream of :class:`Event` records (device transitions, shorts
+opening and closing, trains stopping and going on, faults). Without
+``keep_events`` the stream is *summarised as it happens* by
+:class:`EventSummary` - a count and the first and last instant per
+``(device, event)`` pair - so that memory stays bounded by the number of
+devices times the number of event kinds, however long the session. With
+``keep_events`` every event is also kept in order, for ``--events`` and for
+the exact event logs of the tests.
+
+The :class:`Result` is what :func:`sim.world.run` returns; :meth:`Result.as_dict`
+gives the ``railfault-result/1`` JSON object fixed by the scenario format
+contract (``scenarios/README.md``, section "Results"): ``format``, ``scenario``,
+``seed``, ``duration_s``, ``verdict``, ``findings``, ``episodes``, ``devices``
+and, with ``--events``, ``events``. Times are in seconds and currents in
+amperes; a quantity that does not exist (no margin, no thermal replica) is
+``null``, never an infinity.
+"""
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from types import MappingProxyType
+from typing import Iterable, Mapping, NamedTuple, Optional
+
+from sim.model import Finding
+
+#: Format tag of the result JSON.
+RESULT_FORMAT = "railfault-result/1"
+
+#: Event kinds that count as a trip of a device (for ``trips``).
+TRIP_EVENTS = frozenset({"trip", "thermal_trip"})
+#: Event kinds that count as a trip of a supply (its limit switching it off).
+SUPPLY_TRIP_EVENTS = frozenset({"off"})
+#: Event kinds that count as a swap (a reverser or a reversing booster).
+SWAP_EVENTS = frozenset({"swapped"})
+#: Event kinds that count as a restart attempt.
+RESTART_EVENTS = frozenset({"restart"})
+
+
+def _num(x: Optional[float]) -> Optional[float]:
+    """A JSON-safe float: ``None`` for ``None``, infinities and NaN."""
+    if x is None:
+        return None
+    x = float(x)
+    if math.isnan(x) or math.isinf(x):
+        return None
+    return x
+
+
+def _clean(value):
+    """Recursively make ``value`` JSON-safe (floats finite, tuples as lists)."""
+    if isinstance(value, float):
+        return _num(value)
+    if isinstance(value, Mapping):
+        return {str(k): _clean(v) for k, v in value.items()}
+    if isinstance(value, (list, tuple)):
+        return [_clean(v) for v in value]
+    if isinstance(value, (str, int, bool)) or value is None:
+        return value
+    if hasattr(value, "item"):  # numpy scalars
+        return _clean(value.item())
+    return str(value)
+
+
+# ----------------------------------------------------------------- events
+_NO_DATA: Mapping = MappingProxyType({})
+
+
+class Event(NamedTuple):
+    """One thing that happened at ``t_s``.
+
+    ``device`` names what it happened to: a device, a train, or the place of a
+    short (a joint name such as ``"east-main.b~wye-east.a"``, or
+    ``"section@12 m"`` for a fault). ``event`` is the kind: the device event
+    kinds of :mod:`sim.devices` (``detect``, ``trip``, ``swap_start``,
+    ``swapped``, ``reclose``, ``restart``, ``give_up``, ``thermal_trip``,
+    ``thermal_resume``, ``limit``, ``off``, ``on``, ``dropout``, ``reset``)
+    and the world's own: ``short`` / ``cleared`` (a short episode opens /
+    closes), ``fault`` / ``fault_end`` / ``open`` (scenario faults), ``stop`` /
+    ``go`` (a train without / with power again), ``inrush`` (keep-alive
+    capacitors charging at a restart), ``end`` (the end of the run).
+    A named tuple: cheap to make, immutable.
+    """
+
+    t_s: float
+    device: str
+    event: str
+    data: Mapping = _NO_DATA
+
+    def as_dict(self) -> dict:
+        d = {"t_s": _num(self.t_s), "device": self.device, "event": self.event}
+        for k, v in self.data.items():
+            if k not in d:
+                d[k] = _clean(v)
+        return d
+
+    def as_tuple(self) -> tuple[float, str]:
+        """``(t_s, event)``, the shape of the exact event logs in the tests."""
+        return (self.t_s, self.event)
+
+
+@dataclass
+class SummaryEntry:
+    """Count and first/last instants of one ``(device, event)`` pair."""
+
+    count: int = 0
+    first_s: float = math.nan
+    last_s: float = math.nan
+
+    def as_dict(self) -> dict:
+        return {"count": self.count, "first_s": _num(self.first_s),
+                "last_s": _num(self.last_s)}
+
+
+class EventSummary:
+    """Events summarised as they happen; memory bounded by devices x kinds.
+
+    Parameters
+    ----------
+    keep_events:
+        Also keep every event, in order (``--events``). Without it, only the
+        per ``(device, event)`` counts and first/last instants are kept.
+
+    Notes
+    -----
+    Recording is O(1) per event. The summary holds one
+    :class:`SummaryEntry` per distinct ``(device, event)`` pair, so a one-hour
+    session costs the same memory as a one-minute one.
+    """
+
+    __slots__ = ("keep_events", "events", "entries", "n_events")
+
+    def __init__(self, keep_events: bool = False):
+        self.keep_events = bool(keep_events)
+        self.events: list[Event] = []
+        self.entries: dict[tuple[str, str], SummaryEntry] = {}
+        self.n_events = 0
+
+    def record(self, ev: Event) -> None:
+        """Count ``ev`` (and keep it with ``keep_events``)."""
+        self.n_events += 1
+        key = (ev.device, ev.event)
+        entry = self.entries.get(key)
+        if entry is None:
+            entry = self.entries[key] = SummaryEntry(0, ev.t_s, ev.t_s)
+        entry.count += 1
+        entry.last_s = ev.t_s
+        if self.keep_events:
+            self.events.append(ev)
+
+    def count(self, device: str, event: str) -> int:
+        """How many ``event`` events ``device`` had."""
+        e = self.entries.get((device, event))
+        return e.count if e else 0
+
+    def times(self, device: str, event: str) -> tuple[float, float] | None:
+        """``(first_s, last_s)`` of a pair, ``None`` when it never happened."""
+        e = self.entries.get((device, event))
+        return (e.first_s, e.last_s) if e else None
+
+    def as_dict(self) -> dict:
+        """``{device: {event: {count, first_s, last_s}}}``."""
+        out: dict[str, dict] = {}
+        for (dev, kind), e in sorted(self.entries.items()):
+            out.setdefault(dev, {})[kind] = e.as_dict()
+        return out
+
+
+# --------------------------------------------------------------- episodes
+@dataclass
+class Episode:
+    """One short (or overload) episode, as the results contract lists it.
+
+    ``kind`` is ``gap`` (wheels bridging mismatched rails), ``fault`` (a
+    scenario short) or ``overload`` (a device tripped with no short path
+    open). ``outcome`` is ``clean`` (the current stopped with no device
+    acting), ``swapped`` (a swap interrupted it), ``tripped`` (a device
+    tripped) or ``unresolved`` (still flowing at the end, or swapped again and
+    again without clearing). ``margins`` maps each upstream device to
+    ``t_trip - t_cleared`` in seconds; ``margin_s`` is the least of them.
+    """
+
+    start_s: float
+    kind: str
+    where: str
+    train: Optional[str] = None
+    end_s: Optional[float] = None
+    peak_a: float = 0.0
+    outcome: str = "unresolved"
+    acted: Optional[str] = None
+    acted_s: Optional[float] = None
+    margins: dict = field(default_factory=dict)
+    margin_s: Optional[float] = None
+    swaps: int = 0
+    t_cleared_s: Optional[float] = None
+
+    def as_dict(self) -> dict:
+        return {
+            "start_s": _num(self.start_s), "end_s": _num(self.end_s),
+            "kind": self.kind, "where": self.where, "train": self.train,
+            "peak_a": _num(self.peak_a), "outcome": self.outcome,
+            "acted": self.acted, "acted_s": _num(self.acted_s),
+            "margins": {k: _num(v) for k, v in sorted(self.margins.items())},
+            "margin_s": _num(self.margin_s),
+        }
+
+
+# ---------------------------------------------------------------- devices
+@dataclass
+class DeviceSummary:
+    """What one device did during a run (the ``devices`` table of the JSON).
+
+    ``dark_s`` is the total time its output was not conducting (for a supply:
+    switched off by its limit), ``peak_a`` the largest current it carried,
+    ``max_thermal`` the highest thermal-replica level reached (``None`` for a
+    device without one).
+    """
+
+    kind: str
+    trips: int = 0
+    swaps: int = 0
+    restarts: int = 0
+    dark_s: float = 0.0
+    peak_a: float = 0.0
+    max_thermal: Optional[float] = None
+
+    def as_dict(self) -> dict:
+        return {"kind": self.kind, "trips": self.trips, "swaps": self.swaps,
+                "restarts": self.restarts, "dark_s": _num(self.dark_s),
+                "peak_a": _num(self.peak_a), "max_thermal": _num(self.max_thermal)}
+
+
+# ------------------------------------------------------------------ result
+@dataclass
+class Result:
+    """The outcome of one run of a scenario.
+
+    ``events`` is the full event list when the run kept events
+    (``keep_events=True``), else ``None``; ``summary`` is always there.
+    ``t_end_s`` is where the run stopped (``until_s`` or the scenario's
+    duration). ``stats`` holds engine counters (events handled, solves).
+    """
+
+    title: str
+    path: str
+    sha256: str
+    seed: int
+    duration_s: float
+    verdict: str
+    findings: list = field(default_factory=list)
+    episodes: list = field(default_factory=list)
+    devices: dict = field(default_factory=dict)
+    events: Optional[list] = None
+    summary: Optional[EventSummary] = None
+    t_end_s: float = 0.0
+    t_margin_required_s: float = 0.0
+    stats: dict = field(default_factory=dict)
+
+    @property
+    def passed(self) -> bool:
+        return self.verdict == "pass"
+
+    def event_log(self, kinds: Optional[Iterable[str]] = None,
+                  device: Optional[str] = None) -> list[tuple[float, str]]:
+        """``[(t_s, event), ...]`` of the kept events, optionally filtered."""
+        if self.events is None:
+            raise ValueError("the run did not keep events (use keep_events=True)")
+        ks = set(kinds) if kinds is not None else None
+        return [e.as_tuple() for e in self.events
+                if (ks is None or e.event in ks) and (device is None or e.device == device)]
+
+    def as_dict(self) -> dict:
+        """The ``railfault-result/1`` JSON object (JSON-safe: no infinities)."""
+        d = {
+            "format": RESULT_FORMAT,
+            "scenario": {"title": self.title, "path": self.path, "sha256": self.sha256},
+            "seed": self.seed,
+            "duration_s": _num(self.duration_s),
+            "verdict": self.verdict,
+            "findings": [f.as_dict() if isinstance(f, Finding) else _clean(f)
+                         for f in self.findings],
+            "episodes": [e.as_dict() for e in self.episodes],
+            "devices": {n: s.as_dict() for n, s in sorted(self.devices.items())},
+        }
+        if self.events is not None:
+            d["events"] = [e.as_dict() for e in self.events]
+        return d
+
+
+def verdict_findings(episodes: Iterable[Episode], t_margin_required_s: float) -> list[Finding]:
+    """The run findings that decide the verdict, one per failing episode.
+
+    Fails (``severity`` ``error``) on a gap episode that tripped a device
+    (``RF-RUN-001``) or stayed unresolved (``RF-RUN-002``), a negative margin
+    (``RF-RUN-003``) and a margin below ``t_margin_required_s``
+    (``RF-RUN-004``). Fault and overload episodes that tripped are the
+    protection working and are reported as ``info`` (``RF-RUN-010``); a fault
+    left unresolved is an error (``RF-RUN-005``): a short that does not trip
+    can overheat wiring.
+    """
+    out: list[Finding] = []
+    for ep in episodes:
+        at = f"{ep.where} at {ep.start_s:.6g} s"
+        who = f" (train {ep.train})" if ep.train else ""
+        if ep.kind == "gap" and ep.outcome == "tripped":
+            out.append(Finding("error", "RF-RUN-001", ep.where,
+                               f"gap short at {at}{who} tripped {ep.acted} at "
+                               f"{ep.acted_s:.6g} s", "make the reversing controller clear "
+                               "faster than the upstream trip delay"))
+        elif ep.outcome == "unresolved":
+            code, what = ("RF-RUN-002", "gap short") if ep.kind == "gap" else \
+                ("RF-RUN-005", f"{ep.kind} short")
+            if ep.end_s is None:
+                how = "was still flowing at the end of the run"
+            else:
+                how = (f"was swapped {ep.swaps} times without clearing"
+                       + (f", until {ep.acted} tripped at {ep.acted_s:.6g} s"
+                          if ep.acted and ep.acted_s is not None else ""))
+            fix = ("make the reversing section longer than the longest train, or check the "
+                   "polarity on both sides" if ep.kind == "gap" else "")
+            out.append(Finding("error", code, ep.where, f"{what} at {at}{who} {how}", fix))
+        elif ep.outcome == "tripped":
+            out.append(Finding("info", "RF-RUN-010", ep.where,
+                               f"{ep.kind} at {at} tripped {ep.acted} at {ep.acted_s:.6g} s"))
+        if ep.margin_s is not None:
+            if ep.margin_s < 0:
+                out.append(Finding("error", "RF-RUN-003", ep.where,
+                                   f"negative timing margin {ep.margin_s * 1e3:+.3f} ms at {at}:"
+                                   " an upstream device trips before the swap clears"))
+            elif ep.margin_s < t_margin_required_s:
+                out.append(Finding("error", "RF-RUN-004", ep.where,
+                                   f"timing margin {ep.margin_s * 1e3:+.3f} ms at {at} is below "
+                                   f"the required {t_margin_required_s * 1e3:.3f} ms"))
+    return out
+
+
+def decide(findings: Iterable[Finding]) -> str:
+    """``"fail"`` when any finding is an error, else ``"pass"``."""
+    return "fail" if any(f.severity == "error" for f in findings) else "pass"

@@ -1,0 +1,724 @@
+"""The simpy world: trains, devices, supplies and faults playing out a scenario.
+
+:func:`run` builds the layout, the circuit, the device machines and the train
+plans, plays the scenario in a :class:`simpy.Environment` and returns a
+:class:`sim.trace.Result`.
+
+What happens at one instant (the settle)
+----------------------------------------
+Everything that changes the circuit - a bridge on or off, a fault, a feeder
+opening, a train load or inrush pulse, a device opening, closing or
+swapping, a supply switching - is applied to the circuit at once (each
+``set_*`` call is cheap) and marks the instant *dirty*; a fired device
+deadline marks its device *due*. The first such mark at an instant schedules
+one *settle* of that instant as a zero-delay simpy timeout, which runs after
+every event already queued for that instant. The settle then loops:
+
+1. if dirty: solve (``Circuit.update()``, incremental; a cache keyed by the
+   whole circuit state - the XOR of 128-bit BLAKE2b digests of its items,
+   updated in O(1) per change - returns the solution of a state seen
+   before), then
+   ``observe(t, i)`` on every device whose current changed (and
+   ``observe_supply_v`` on the boosters of a supply whose voltage changed),
+   re-arming their deadlines; the episode tracker and the trains' power are
+   fed from the same solution;
+2. of the devices due now, the first in the tie-break order acts
+   (``advance``); if its output changed the circuit is updated and the loop
+   goes back to 1 before any other device acts.
+
+Tie-break for simultaneous events (deterministic)
+-------------------------------------------------
+At one instant: (i) topology changes first (trains, faults, actions, pulses -
+all applied before the solve; a constant-current supply limit acts within
+the solve, see Supplies), then (ii) device deadlines one device at a
+time in the order of the feed chain **from the track up** - a device with a
+longer chain above it first (reversers, then breakers, then boosters, then
+supplies), then by name - and the circuit is re-solved after each device
+whose output changed. So a reverser swapping at the very instant its
+booster's trip delay runs out wins the race: the booster observes the
+cleared current before its deadline is taken, and does not trip.
+
+Instants are scheduled at absolute times rounded to 1 ns
+(:data:`sim.world.processes.T_DIGITS`), so two deadlines that differ by float
+rounding only (``0.75 + 0.003`` and ``0.75 + 0.0005 + 0.0025``) meet at one
+instant and the tie-break decides, not the rounding. A settle that does not
+come to rest (more than :data:`MAX_PASSES` passes, or more than
+:data:`MAX_SETTLES_PER_INSTANT` settles at one instant) raises
+``RuntimeError`` instead of hanging.
+
+Cancellation of deadlines: a cancellable-timeout scheme, see
+:mod:`sim.world.processes`.
+
+Solves: ``Circuit.update()`` checks Kirchhoff's current law itself; when that
+check fails (a near-zero-current state can defeat its relative tolerance) the
+engine solves the state in full with ``Circuit.solve()``, which checks it
+again, and counts it in ``Result.stats["full_solves"]``.
+
+Trains
+------
+A train's draw is a rail-to-rail load ``V_nominal / draw_a`` (``V_nominal``
+the EMF of the supply at the top of its feed chain) placed at the middle of
+the section its locomotive is in; it moves when the locomotive enters another
+section (at the train's bridge events). Bridges come from the closed-form
+intervals of :mod:`sim.world.trains`. A train has power when the voltage at
+its load is at least :data:`POWER_FRACTION` of nominal and its feeding
+device is closed; without power it stops once its keep-alive has run out
+(it stands where it is, keeping the bridges it stands on) and goes on when
+power returns; its crossing times are then computed anew from where it
+stopped.
+
+Inrush at a restart
+-------------------
+When a device's output closes again after being open, the keep-alive
+capacitors of every locomotive on it charge: :func:`sim.circuit.inrush.inrush`
+gives ``(i_peak_a, tau_s)`` (peak ``V/R``, time constant ``RC``). The engine
+models it as an extra load ``V / i_peak_a`` for ``tau_s``: a rectangular
+pulse of the peak current carrying the capacitor's whole charge ``C V``. The
+devices observe it like any load, so a restart can trip again on inrush
+alone.
+
+Supplies
+--------
+A supply is a device machine observing its load current; when it limits or
+switches off, the engine tells the circuit (``set_supply``; a constant-current
+limit as ``i_limit_a``). A constant-current limit acts within the solve:
+the circuit is solved again *before* any other device observes, since the
+limit is the supply's own characteristic, not a timed protection; a hiccup or
+latch switching off takes its turn as a device (supplies last). Every booster
+on it observes the sagging terminal voltage and drops out under its
+undervoltage level.
+
+Randomness: one ``numpy.random.default_rng(scn.seed)`` passed to every
+device constructor (the sample-grid phases), in a fixed order; nothing global.
+"""
+from __future__ import annotations
+
+import hashlib
+import math
+import time
+from typing import Optional
+
+import numpy as np
+
+from sim.circuit.network import KirchhoffError
+from sim.model import Finding, Scenario
+from sim.trace import (DeviceSummary, Event, EventSummary, Result, decide, verdict_findings,
+                       SUPPLY_TRIP_EVENTS, TRIP_EVENTS)
+from sim.world.episodes import I_FLOOR_A, EpisodeTracker, ShortPath
+from sim.world.processes import (T_DIGITS, Env, DeviceDriver, TrainRun, action_process,
+                                 build_runs, fault_process)
+
+#: Device events after which the output closes on a discharged layout (inrush).
+INRUSH_EVENTS = frozenset({"restart", "reset", "thermal_resume"})
+
+#: A train has power when its rails carry at least this fraction of nominal voltage.
+POWER_FRACTION = 0.5
+#: Relative change of a current below which a device is not told again.
+I_REL_TOL = 1e-9
+#: Relative change of a supply voltage below which its boosters are not told again.
+V_REL_TOL = 1e-9
+#: Cache of solutions, entries kept before it is emptied.
+CACHE_MAX = 4096
+#: Most passes of one settle before the engine declares a loop.
+MAX_PASSES = 100_000
+#: Most settles at one instant before the engine declares a loop.
+MAX_SETTLES_PER_INSTANT = 10_000
+
+#: Digests of state items kept before the memo is emptied.
+DIGESTS_MAX = 100_000
+
+
+class World:
+    """One run of a scenario (see the module doc). Use :func:`run`.
+
+    Parameters
+    ----------
+    scn : Scenario
+    until_s : float, optional
+        Stop here instead of at ``scn.duration_s``.
+    keep_events : bool
+        Keep every event (``--events``); otherwise only the bounded summary.
+    layout, circuit, devices, trains :
+        Pre-built parts (tests and benchmarks); built from ``scn`` when ``None``.
+    """
+
+    def __init__(self, scn: Scenario, until_s: Optional[float] = None,
+                 keep_events: bool = False, layout=None, circuit=None, devices=None,
+                 plans=None):
+        from sim.layout import build_layout
+        from sim.circuit import build_circuit
+
+        self.scn = scn
+        self.t_end_s = float(scn.duration_s if until_s is None else until_s)
+        self.env = Env()
+        self.never = self.env.event()
+        self.summary = EventSummary(keep_events)
+        self.layout = layout if layout is not None else build_layout(scn)
+        self.circuit = circuit if circuit is not None else build_circuit(scn, self.layout)
+        rng = np.random.default_rng(scn.seed)
+        self._init_devices(devices, rng)
+        self._cache: dict = {}
+        self._state: dict = {}
+        self._hash = 0
+        self._digests: dict = {}
+        self._dirty = False
+        self._episode_pass = False
+        self._t_settle = -1.0
+        self._n_same = 0
+        self._inrush_until: dict[str, float] = {}
+        self._due: set = set()
+        self._settle_ev = None
+        self._sol = None
+        self._i: dict[str, float] = {n: 0.0 for n in self.drivers}
+        self._v_supply: dict[str, float] = {}
+        self._dark_since: dict[str, Optional[float]] = {n: None for n in self.drivers}
+        self._dark_s: dict[str, float] = {n: 0.0 for n in self.drivers}
+        self._out: dict[str, tuple] = {}
+        self.paths: dict = {}                 # circuit key -> ShortPath (existing paths)
+        self.n_solves = 0
+        self.n_full_solves = 0
+        self.t_circuit_s = 0.0
+        self.n_cache_hits = 0
+        self.n_settles = 0
+        self.n_changes = 0
+        rated = {n: scn.device(n).thermal.i_rated_a for n in self.drivers
+                 if self.kinds[n] != "supply" and getattr(scn.device(n), "thermal", None)}
+        self.tracker = EpisodeTracker(self._would_trip, self._t_swap_of,
+                                      chain=self._chain_of,
+                                      device_threshold_a=self._thr_dev,
+                                      device_rated_a=rated)
+        self.findings: list[Finding] = []
+        self._init_trains(plans)
+
+    # ----------------------------------------------------------- devices
+    def _init_devices(self, devices, rng) -> None:
+        from sim.devices import make_device
+
+        scn = self.scn
+        names = (list(scn.supplies) + list(scn.boosters) + list(scn.breakers)
+                 + list(scn.reversers))
+        kinds = {n: scn.device_kind(n) for n in names}
+        if devices is None:
+            devices = {n: make_device(scn, n, rng) for n in names}
+        depth = {n: len(scn.upstream(n)) for n in names}
+        order = sorted(names, key=lambda n: (-depth[n], n))
+        self.order = order
+        self.supply_names = [n for n in order if kinds[n] == "supply"]
+        # supplies that hold their limit at constant current (for a while, or for good)
+        self.cc_supplies = {n for n in self.supply_names
+                            if math.isfinite(scn.supplies[n].i_limit_a)
+                            and (scn.supplies[n].on_limit == "constant-current"
+                                 or getattr(scn.supplies[n], "t_limit_s", 0.0) > 0.0)}
+        self._v_seen: dict[str, float] = {}
+        self.protect_order = [n for n in order if kinds[n] != "supply"]
+        self._sup_changed: dict = {}
+        self.drivers: dict[str, DeviceDriver] = {
+            n: DeviceDriver(self, n, devices[n], order.index(n), kinds[n]) for n in names}
+        self.kinds = kinds
+        # boosters per supply (undervoltage), chains, thresholds, swap times
+        self.boosters_of: dict[str, list[str]] = {s: [] for s in scn.supplies}
+        for b, bo in scn.boosters.items():
+            self.boosters_of.setdefault(bo.supply, []).append(b)
+        self._chains = {n: scn.upstream(n) for n in names}
+        self._thr_dev: dict[str, float] = {}
+        self._t_swap: dict[str, float] = {}
+        for n in names:
+            rec = scn.device(n)
+            if kinds[n] == "supply":
+                if math.isfinite(rec.i_limit_a):
+                    self._thr_dev[n] = rec.i_limit_a
+                continue
+            self._thr_dev[n] = rec.trip.i_above_a
+            if kinds[n] == "reverser":
+                self._t_swap[n] = rec.t_swap_s
+            elif kinds[n] == "booster" and rec.reverse_on_short:
+                self._t_swap[n] = rec.t_swap_s
+        self._sense_thr: dict[str, float] = {}
+        for n in names:
+            rec = scn.device(n)
+            if kinds[n] == "reverser":
+                self._sense_thr[n] = min(rec.sense_above_a, rec.trip.i_above_a)
+            elif kinds[n] in ("booster", "breaker"):
+                lo = rec.trip.i_above_a
+                if kinds[n] == "booster" and rec.reverse_on_short and rec.sense_reverse_a:
+                    lo = min(lo, rec.sense_reverse_a)
+                self._sense_thr[n] = lo
+
+    def _chain_of(self, dev: str) -> tuple:
+        return self._chains.get(dev, ())
+
+    def _t_swap_of(self, dev: str) -> Optional[float]:
+        return self._t_swap.get(dev)
+
+    def _would_trip(self, dev: str, i_a: float, t_s: float) -> Optional[float]:
+        """When ``dev`` would trip had ``i_a`` gone on from ``t_s`` (None: never).
+
+        Asked right after the device observed ``i_a`` at ``t_s``: a plain
+        protection machine (no swap logic) then already holds the answer, the
+        deadline of its trip unit and of its thermal replica; any other device
+        answers through its ``trip_after_s`` (which simulates a copy).
+        """
+        m = self.drivers[dev].dev
+        unit = getattr(m, "trip_unit", None)
+        if unit is not None and getattr(m, "swap", True) is None and m.closed:
+            cands = [unit.due_s()]
+            rep = getattr(m, "replica", None)
+            if rep is not None:
+                cands.append(rep.trip_deadline_s())
+            cands = [c for c in cands if c is not None]
+            return min(cands) if cands else None
+        dt = m.trip_after_s(i_a, t_s)
+        if dt is None or not math.isfinite(dt):
+            return None
+        return t_s + dt
+
+    def path_threshold_a(self, chains: list[tuple]) -> float:
+        """Short threshold of a path fed through the given device chains (>= 0.5 A)."""
+        vals = [self._sense_thr[d] for ch in chains for d in ch if d in self._sense_thr]
+        return max(I_FLOOR_A, min(vals)) if vals else I_FLOOR_A
+
+    # ----------------------------------------------------------- trains
+    def _init_trains(self, plans) -> None:
+        # trains registered under every device of their chain (power checks)
+        self.trains_on: dict[str, set] = {n: set() for n in self.drivers}
+        self._check_trains: set = set()
+        self.train_runs: dict[str, TrainRun] = build_runs(self, plans)
+
+    def check_train_later(self, name: str) -> None:
+        """Check this train's power after the next solve (its load moved)."""
+        self._check_trains.add(name)
+
+    def record_train(self, t_s: float, name: str, event: str) -> None:
+        self.record(Event(t_s, name, event))
+
+    def output_closed(self, dev: str) -> bool:
+        """Whether a device's output (or a supply) conducts, as last applied."""
+        st = self._out.get(dev)
+        return True if st is None else bool(st[0])
+
+    # ------------------------------------------------ circuit state (cheap)
+    def _digest(self, item) -> int:
+        """A 128-bit digest of one state item (``repr`` is exact for floats)."""
+        d = self._digests.get(item)
+        if d is None:
+            if len(self._digests) > DIGESTS_MAX:
+                self._digests.clear()
+            d = int.from_bytes(hashlib.blake2b(repr(item).encode(), digest_size=16).digest(),
+                               "little")
+            self._digests[item] = d
+        return d
+
+    def _put(self, key, value) -> None:
+        """Record one item of the circuit state; the state key is the XOR of the
+        items' 128-bit digests (Zobrist hashing), kept up to date in O(1)."""
+        old = self._state.get(key)
+        if old is not None:
+            self._hash ^= self._digest((key, old))
+        if value is None:
+            self._state.pop(key, None)
+        else:
+            self._state[key] = value
+            self._hash ^= self._digest((key, value))
+        self.n_changes += 1
+        self._mark_dirty()
+
+    def set_bridge(self, key, joint_index: int, rail: str, r_ohm: float, path: ShortPath) -> None:
+        self.circuit.set_bridge(key, joint_index, rail, r_ohm)
+        self.paths[key] = path
+        self._put(("b", key), (joint_index, rail, r_ohm))
+
+    def clear_bridge(self, key) -> None:
+        if self.paths.pop(key, None) is not None:
+            self.circuit.clear_bridge(key)
+            self._put(("b", key), None)
+
+    def set_load(self, key, section: str, at_m: float, r_ohm: float) -> None:
+        if self._state.get(("l", key)) == (section, at_m, r_ohm):
+            return
+        self.circuit.set_load(key, section, at_m, r_ohm)
+        self._put(("l", key), (section, at_m, r_ohm))
+
+    def clear_load(self, key) -> None:
+        if ("l", key) in self._state:
+            self.circuit.clear_load(key)
+            self._put(("l", key), None)
+
+    # ------------------------------------------------------ faults, actions
+    def apply_fault(self, index: int, fault, on: bool) -> None:
+        """A scenario fault begins (``on``) or a timed short ends."""
+        t = self.env.now
+        if fault.kind == "short":
+            key = ("fault", index)
+            where = f"{fault.section}@{fault.at_m:g} m"
+            if on:
+                self.circuit.set_short(key, fault.section, fault.at_m, fault.r_ohm)
+                chain = self.layout.device_chain(fault.section)
+                self.paths[key] = ShortPath(key, ("fault", index), "fault", where, None,
+                                            self.path_threshold_a([chain]))
+                self._put(("s", key), (fault.section, fault.at_m, fault.r_ohm))
+                self.record(Event(t, where, "fault", {"r_ohm": fault.r_ohm}))
+            else:
+                self.circuit.clear_short(key)
+                self.paths.pop(key, None)
+                self._put(("s", key), None)
+                self.record(Event(t, where, "fault_end"))
+        elif fault.kind == "open":
+            self.circuit.set_feeder_open(fault.section, fault.feeder, True)
+            self._put(("o", fault.section, fault.feeder), True)
+            self.record(Event(t, f"{fault.section} feeder {fault.feeder}", "open"))
+
+    def apply_action(self, index: int, action) -> None:
+        """An operator action: a reset of a device."""
+        if action.kind != "reset":
+            return
+        drv = self.drivers.get(action.device)
+        if drv is None:
+            return
+        t = self.env.now
+        evs = drv.dev.reset(t) or []
+        for e in evs:
+            self._device_event(e)
+        self._apply_output(drv, inrush=True)
+        drv.arm()
+
+    # ------------------------------------------------------------ settle
+    def mark_due(self, drv: DeviceDriver) -> None:
+        self._due.add(drv)
+        self._schedule_settle()
+
+    def _mark_dirty(self) -> None:
+        self._dirty = True
+        self._schedule_settle()
+
+    def _schedule_settle(self) -> None:
+        if self._settle_ev is None:
+            ev = self.env.timeout(0)
+            ev.callbacks.append(self._settle)
+            self._settle_ev = ev
+
+    def _settle(self, _ev) -> None:
+        self._settle_ev = _ev          # no second settle is scheduled while this one runs
+        self.n_settles += 1
+        t = self.env.now
+        if t == self._t_settle:
+            self._n_same += 1
+            if self._n_same > MAX_SETTLES_PER_INSTANT:
+                raise RuntimeError(f"the world does not settle at t = {t!r} s: more than "
+                                   f"{MAX_SETTLES_PER_INSTANT} settles at one instant")
+        else:
+            self._t_settle, self._n_same = t, 0
+        for _ in range(MAX_PASSES):
+            if self._dirty:
+                self._solve_and_observe(t)
+                continue
+            if not self._due:
+                if self._episode_pass:
+                    self._episode_pass = False
+                    for e in self.tracker.solution(t, self._short_currents(self._sol), {},
+                                                   close=True):
+                        self.record(e)
+                self._settle_ev = None
+                return
+            drv = min(self._due, key=lambda d: d.rank)
+            self._due.discard(drv)
+            if not drv.due(t):
+                drv.arm()
+                continue
+            d = drv.armed_s
+            drv.armed_s = None
+            evs = drv.dev.advance(max(t, d))
+            inrush = False
+            for e in evs:
+                self._device_event(e)
+                inrush = inrush or e.event in INRUSH_EVENTS or (
+                    e.event == "reclose" and e.data.get("cause") == "undervoltage")
+            self._apply_output(drv, inrush)
+            drv.arm()
+        raise RuntimeError(f"no progress at t = {t!r} s after {MAX_PASSES} settle passes")
+
+    def _solve(self):
+        self.n_solves += 1
+        key = self._hash
+        sol = self._cache.get(key)
+        if sol is not None:
+            self.n_cache_hits += 1
+            return sol
+        t0 = time.perf_counter()
+        try:
+            sol = self.circuit.update()
+        except KirchhoffError:
+            # the incremental update's own Kirchhoff check failed (a
+            # near-zero-current state can trip its relative tolerance):
+            # solve in full, which checks Kirchhoff's law again
+            self.n_full_solves += 1
+            sol = self.circuit.solve()
+        self.t_circuit_s += time.perf_counter() - t0
+        if len(self._cache) >= CACHE_MAX:
+            self._cache.clear()
+        self._cache[key] = sol
+        return sol
+
+    def _solve_supplies(self, t: float):
+        """Solve, letting every supply's current limit act within the solve.
+
+        A constant-current limit is the supply's own characteristic, not a
+        timed protection: a supply that holds its limit (constant-current
+        mode, or hiccup/latch with a hold time) and whose observed current or
+        terminal voltage calls for entering or leaving the limit is advanced
+        at once and the circuit solved again before any other device observes
+        the currents. (A supply switching off - at once, or when its hold time
+        runs out - is a protective action and takes its turn in the tie-break
+        order, after the devices below it.)
+        """
+        sol = self._solve()
+        for _ in range(2 * len(self.cc_supplies) + 2):
+            for name in self.supply_names:
+                drv = self.drivers[name]
+                m = drv.dev
+                seen = False
+                i = sol.supply_i_a.get(name, 0.0)
+                if abs(i - self._i[name]) > I_REL_TOL * max(1.0, abs(i)):
+                    self._i[name] = i
+                    self._sup_changed[name] = i
+                    m.observe(t, i)
+                    seen = True
+                v = sol.supply_v_v.get(name)
+                v_old = self._v_seen.get(name)
+                if v is not None and (v_old is None
+                                      or abs(v - v_old) > V_REL_TOL * max(1.0, abs(v))):
+                    self._v_seen[name] = v
+                    fn = getattr(m, "observe_supply_v", None)
+                    if fn is not None:
+                        fn(t, v)
+                        seen = True
+                if not seen:
+                    continue
+                if name in self.cc_supplies:
+                    d = m.next_deadline()
+                    # a transition the observation itself calls for (into or out of
+                    # the limit), not a timer armed before that comes due now
+                    if d is not None and round(d, T_DIGITS) <= t and d != drv.armed_s:
+                        for e in m.advance(max(t, d)):
+                            self._device_event(e)
+                        self._apply_output(drv)
+                drv.arm()
+            if not self._dirty:
+                return sol
+            self._dirty = False
+            sol = self._solve()
+        return sol
+
+    def _solve_and_observe(self, t: float) -> None:
+        self._dirty = False
+        self._sup_changed = {}
+        sol = self._solve_supplies(t) if self.supply_names else self._solve()
+        prev = self._sol
+        self._sol = sol
+        if prev is None:
+            for f in getattr(sol, "findings", ()) or ():
+                if isinstance(f, Finding):
+                    self.findings.append(f)
+        changed: dict[str, float] = {}
+        dev_i = sol.device_i_a
+        drivers = self.drivers
+        for name in self.protect_order:
+            i = dev_i.get(name, 0.0)
+            old = self._i[name]
+            if abs(i - old) > I_REL_TOL * max(1.0, abs(i)):
+                self._i[name] = i
+                changed[name] = i
+        for name, i in changed.items():
+            drv = drivers[name]
+            drv.dev.observe(t, i)
+            drv.arm()
+        if self._sup_changed:
+            changed.update(self._sup_changed)
+        # supply voltage -> boosters (undervoltage)
+        sv = sol.supply_v_v
+        for s, boosters in self.boosters_of.items():
+            v = sv.get(s)
+            if v is None:
+                continue
+            v_old = self._v_supply.get(s)
+            if v_old is not None and abs(v - v_old) <= V_REL_TOL * max(1.0, abs(v)):
+                continue
+            self._v_supply[s] = v
+            for b in boosters:
+                m = drivers[b].dev
+                fn = getattr(m, "observe_supply_v", None)
+                if fn is not None:
+                    fn(t, v)
+                    drivers[b].arm()
+        # short paths -> episodes (closing waits for the settled instant)
+        if self.paths or self.tracker.open_count:
+            for e in self.tracker.solution(t, self._short_currents(sol), changed, close=False):
+                self.record(e)
+            self._episode_pass = self.tracker.open_count > 0
+        elif changed:
+            self.tracker.solution(t, {}, changed, close=False)
+        # trains' power
+        if self.train_runs:
+            todo = self._check_trains
+            self._check_trains = set()
+            for name in changed:
+                todo |= self.trains_on.get(name, set())
+            for tr in sorted(todo):
+                self.train_runs[tr].check_power(t, sol)
+
+    def _short_currents(self, sol) -> dict:
+        bi = sol.bridge_i_a
+        si = sol.short_i_a
+        currents = {}
+        for key, path in self.paths.items():
+            i = (si if path.kind == "fault" else bi).get(key, 0.0)
+            currents[path] = abs(i)
+        return currents
+
+    # ------------------------------------------------------- device output
+    def _device_event(self, e) -> None:
+        ev = Event(e.t_s, e.device, e.event, e.data)
+        self.record(ev)
+        self.tracker.device_event(ev)
+        if e.event == "trip" and self._inrush_until.get(e.device, -1.0) >= e.t_s:
+            self._inrush_until.pop(e.device, None)
+            if not self.tracker.involved(e.device):
+                self.findings.append(Finding(
+                    "warning", "RF-RUN-007", e.device,
+                    f"{e.device} tripped again at {e.t_s:.6g} s while the keep-alive "
+                    "capacitors of the trains on it were charging after its restart: "
+                    "the restart fails on inrush alone",
+                    "raise the trip delay above the inrush time, or limit the charging "
+                    "current of the keep-alives"))
+
+    def _apply_output(self, drv: DeviceDriver, inrush: bool = False) -> None:
+        m = drv.dev
+        name = drv.name
+        t = self.env.now
+        if drv.kind == "supply":
+            state = self._supply_state(m)
+            if self._out.get(name, (True, math.inf)) != state:
+                on, i_lim = state
+                self.circuit.set_supply(name, on=on, i_limit_a=i_lim)
+                self._put(("p", name), state)
+                self._dark(name, t, on)
+                self._out[name] = state
+            return
+        closed = bool(m.closed)
+        swapped = bool(getattr(m, "swapped", False))
+        old = self._out.get(name, (True, False))
+        if (closed, swapped) == old:
+            return
+        self._out[name] = (closed, swapped)
+        self.circuit.set_device(name, closed=closed, swapped=swapped)
+        self._put(("d", name), (closed, swapped))
+        self._dark(name, t, closed)
+        if name in self._t_swap and (swapped != old[1] or (old[0] and not closed)):
+            self.tracker.interrupt(t, name)
+        if closed and not old[0] and inrush:
+            tau_max = 0.0
+            for run in sorted(self.trains_on.get(name, ())):
+                tau_max = max(tau_max, self.train_runs[run].inrush(t))
+            if tau_max > 0.0:
+                self._inrush_until[name] = t + tau_max
+
+    @staticmethod
+    def _supply_state(m) -> tuple:
+        """``(on, i_limit_a)``: the limit the circuit must hold (inf: none)."""
+        on = bool(getattr(m, "on", getattr(m, "closed", True)))
+        i_lim = m.i_limit_a if getattr(m, "limiting", False) else math.inf
+        return (on, i_lim)
+
+    def _dark(self, name: str, t: float, conducting: bool) -> None:
+        since = self._dark_since[name]
+        if not conducting and since is None:
+            self._dark_since[name] = t
+        elif conducting and since is not None:
+            self._dark_s[name] += t - since
+            self._dark_since[name] = None
+
+    # ----------------------------------------------------------- events
+    def record(self, ev: Event) -> None:
+        self.summary.record(ev)
+
+    # -------------------------------------------------------------- run
+    def run(self) -> Result:
+        """Play the scenario to the end and return its :class:`Result`."""
+        wall0 = time.perf_counter()
+        env = self.env
+        for n in self.order:
+            self._apply_output(self.drivers[n])
+        for idx, f in enumerate(self.scn.faults):
+            env.process(fault_process(self, idx, f))
+        for idx, a in enumerate(self.scn.actions):
+            env.process(action_process(self, idx, a))
+        for run in self.train_runs.values():
+            run.start()
+        self._mark_dirty()
+        for drv in self.drivers.values():
+            drv.arm()
+        env.run(until=self.t_end_s)     # events at exactly t_end are not played
+        return self._result(time.perf_counter() - wall0)
+
+    def _result(self, wall_s: float) -> Result:
+        t_end = self.t_end_s
+        self.record(Event(t_end, "world", "end"))
+        episodes = self.tracker.finish(t_end)
+        devices: dict[str, DeviceSummary] = {}
+        for name, drv in self.drivers.items():
+            m = drv.dev
+            since = self._dark_since[name]
+            dark = self._dark_s[name] + (t_end - since if since is not None else 0.0)
+            s = self.summary
+            tm = getattr(m, "theta_max", None)
+            if tm is None and getattr(m, "theta", None) is not None:
+                tm = m.theta
+            devices[name] = DeviceSummary(
+                kind=drv.kind,
+                trips=sum(s.count(name, k) for k in
+                          (SUPPLY_TRIP_EVENTS if drv.kind == "supply" else TRIP_EVENTS)),
+                swaps=s.count(name, "swapped"),
+                restarts=s.count(name, "restart"),
+                dark_s=dark,
+                peak_a=float(getattr(m, "peak_a", 0.0) or 0.0),
+                max_thermal=None if tm is None else float(tm))
+        findings = list(self.findings) + verdict_findings(episodes, self.scn.t_margin_required_s)
+        scn = self.scn
+        return Result(
+            title=scn.title, path=scn.path, sha256=scn.sha256, seed=scn.seed,
+            duration_s=scn.duration_s, verdict=decide(findings), findings=findings,
+            episodes=episodes, devices=devices,
+            events=list(self.summary.events) if self.summary.keep_events else None,
+            summary=self.summary, t_end_s=t_end,
+            t_margin_required_s=scn.t_margin_required_s,
+            stats={"events": self.summary.n_events, "solves": self.n_solves,
+                   "cache_hits": self.n_cache_hits, "full_solves": self.n_full_solves,
+                   "settles": self.n_settles,
+                   "changes": self.n_changes, "wall_s": wall_s,
+                   "circuit_s": self.t_circuit_s})
+
+
+def run(scn: Scenario, until_s: Optional[float] = None, keep_events: bool = False) -> Result:
+    """Play a scenario and return its result.
+
+    Parameters
+    ----------
+    scn : Scenario
+        A loaded scenario (:func:`sim.scenario.load`).
+    until_s : float, optional
+        Simulate up to this instant instead of ``scn.duration_s``.
+    keep_events : bool
+        Keep every event in ``Result.events`` (``railfault run --events``);
+        without it events are only summarised (bounded memory).
+
+    Returns
+    -------
+    sim.trace.Result
+
+    Examples
+    --------
+    >>> from sim.scenario import load                      # doctest: +SKIP
+    >>> res = run(load("scenarios/cinder-ridge.yaml"))     # doctest: +SKIP
+    >>> res.verdict                                        # doctest: +SKIP
+    'pass'
+    """
+    return World(scn, until_s=until_s, keep_events=keep_events).run()

@@ -1,0 +1,374 @@
+"""Thin simpy drivers: device machines, trains, faults and operator actions.
+
+The device *logic* lives in the pure state machines of :mod:`sim.devices`;
+these drivers only turn their deadlines into simpy events and hand what
+happens to the world (:class:`sim.world.engine.World`).
+
+Cancellation scheme (device deadlines)
+--------------------------------------
+A device's next self-timed transition (``next_deadline()``) is scheduled as a
+simpy timeout carrying a callback - a *cancellable timeout*: re-arming the
+driver (after every observe that changed its current, and after every
+advance) replaces the armed timeout, and a timeout that fires after it was
+replaced finds that it is no longer the armed one and does nothing. So a
+trip delay that the current cuts short (a swap clears the short first) is
+cancelled at the instant the current changes, and never acts. This costs one
+heap entry per armed deadline and no generator switch, which is what keeps
+the event rate high; it is equivalent to the machine-shop pattern (a worker
+process interrupted by ``simpy.Interrupt``), which the trains use.
+
+A fired deadline does not act by itself: it marks the device *due* and the
+world settles the instant (see the tie-break in :mod:`sim.world.engine`).
+
+Trains (machine-shop pattern)
+-----------------------------
+A train is a simpy process that sleeps until its next bridge change (a
+pickup group starting or ending a bridge over a gapped joint, from the
+closed-form intervals of its plan). When it loses power for longer than its
+keep-alive, or power comes back, the world interrupts it
+(``simpy.Interrupt`` with cause ``"stop"`` or ``"go"``) and it re-plans: a
+stopped train keeps the bridges it stands on and has no future ones; a train
+going on gets the intervals of its plan from where it stopped.
+"""
+from __future__ import annotations
+
+import heapq
+from typing import TYPE_CHECKING, Optional
+
+import simpy
+
+from sim.trace import Event
+
+if TYPE_CHECKING:  # pragma: no cover
+    from sim.world.engine import World
+
+#: Instants closer than this (s) are the same instant (as sim.devices.sensing).
+T_TOL_S = 1e-9
+#: Decimal places of the instants events are scheduled at (1 ns): two deadlines
+#: that differ by float rounding only (0.75 + 0.003 and 0.75 + 0.0005 + 0.0025)
+#: land on one instant and meet the tie-break, not an accident of rounding.
+T_DIGITS = 9
+
+
+class Env(simpy.Environment):
+    """A simpy environment that also schedules at an absolute instant."""
+
+    def timeout_at(self, t_s: float):
+        """An event that fires at the absolute instant ``t_s`` (not before now).
+
+        ``Environment.timeout(t - now)`` lands on ``now + (t - now)``, which
+        float rounding may move off ``t``; this pushes ``t`` itself.
+        """
+        ev = simpy.Event(self)
+        ev._ok = True
+        ev._value = None
+        heapq.heappush(self._queue, (max(t_s, self._now), simpy.core.NORMAL,
+                                     next(self._eid), ev))
+        return ev
+
+
+class DeviceDriver:
+    """Drives one pure device machine through cancellable timeouts.
+
+    Parameters
+    ----------
+    world : World
+        The world to report a due device to.
+    name : str
+        Device name.
+    dev :
+        The state machine (``observe``, ``next_deadline``, ``advance``).
+    rank : int
+        Its place in the tie-break order (lower acts first at one instant).
+    """
+
+    __slots__ = ("world", "name", "dev", "rank", "armed_s", "_ev", "kind")
+
+    def __init__(self, world: "World", name: str, dev, rank: int, kind: str):
+        self.world = world
+        self.name = name
+        self.dev = dev
+        self.rank = rank
+        self.kind = kind
+        self.armed_s: Optional[float] = None
+        self._ev = None
+
+    def arm(self) -> None:
+        """(Re)schedule the device's next deadline, cancelling the armed one."""
+        d = self.dev.next_deadline()
+        if d == self.armed_s and (d is None or self._ev is not None):
+            return
+        self.armed_s = d
+        self._ev = None
+        if d is None:
+            return
+        env = self.world.env
+        t_fire = round(d, T_DIGITS)
+        if t_fire <= env.now:
+            self.world.mark_due(self)
+            return
+        ev = env.timeout_at(t_fire)
+        ev.callbacks.append(self._fire)
+        self._ev = ev
+
+    def _fire(self, ev) -> None:
+        if ev is not self._ev:
+            return  # cancelled: a newer deadline was armed since
+        self._ev = None
+        self.world.mark_due(self)
+
+    def due(self, t_s: float) -> bool:
+        """Whether its armed deadline is at (or before) the instant ``t_s``."""
+        d = self.armed_s
+        return d is not None and round(d, T_DIGITS) <= t_s
+
+
+def train_process(world: "World", drv):
+    """The simpy process of one train (machine-shop pattern, see module doc).
+
+    ``drv`` is a :class:`sim.world.engine.TrainRun` holding the train's plan
+    state; this generator only sleeps until its next bridge change and hands
+    it to the world, and catches the world's ``stop``/``go`` interrupts.
+    """
+    env = world.env
+    while True:
+        t_next = drv.next_change_s()
+        try:
+            if t_next is None:
+                yield world.never
+            else:
+                yield env.timeout_at(round(t_next, T_DIGITS))
+                drv.apply_due(env.now)
+        except simpy.Interrupt as intr:
+            drv.replan(env.now, intr.cause)
+
+
+def fault_process(world: "World", index: int, fault):
+    """Apply one scenario fault at its instant (and end a timed short)."""
+    env = world.env
+    if fault.at_s > env.now:
+        yield env.timeout_at(round(fault.at_s, T_DIGITS))
+    world.apply_fault(index, fault, on=True)
+    if fault.kind == "short" and fault.lasts_s is not None:
+        yield env.timeout_at(round(fault.at_s + fault.lasts_s, T_DIGITS))
+        world.apply_fault(index, fault, on=False)
+
+
+def action_process(world: "World", index: int, action):
+    """Apply one operator action (a reset) at its instant."""
+    env = world.env
+    if action.at_s > env.now:
+        yield env.timeout_at(round(action.at_s, T_DIGITS))
+    world.apply_action(index, action)
+
+
+def pulse_process(world: "World", key, section: str, at_m: float, r_ohm: float,
+                  t_pulse_s: float):
+    """An inrush pulse: a load ``r_ohm`` for ``t_pulse_s`` (see the engine doc)."""
+    world.set_load(key, section, at_m, r_ohm)
+    yield world.env.timeout_at(round(world.env.now + t_pulse_s, T_DIGITS))
+    world.clear_load(key)
+
+
+class TrainRun:
+    """One train in the world: its :class:`sim.world.trains.Motion`, bridges and load.
+
+    The closed-form motion answers every question (bridges on now, the next
+    bridge instants, where the locomotives draw); this class applies the
+    answers to the world and reacts to power: ``power_lost`` / ``power_back``
+    of the motion void the planned instants, the bridges on are reconciled at
+    once and the train's process is interrupted to sleep anew.
+    """
+
+    def __init__(self, world: "World", name: str, plan):
+        from sim.world.trains import Motion
+
+        self.world = world
+        self.name = name
+        self.plan = plan
+        self.motion = Motion(plan)
+        self.bridges: dict = {}          # circuit key -> BridgeInterval on now
+        self.pending: list = []          # BridgeEvent, time order
+        self.k = 0
+        self.proc = None
+        self.loads: dict = {}            # circuit key -> (section, chain)
+        self.t_stop_s: Optional[float] = None
+        self.stopped = False
+        self.v_nominal_v = self._v_nominal()
+        self._vehicles = plan.consist.vehicles
+
+    def _v_nominal(self) -> float:
+        scn = self.world.scn
+        for p in self.plan.load_points(0.0):
+            chain = self.world.layout.device_chain(p.section)
+            for d in chain:
+                if d in scn.supplies:
+                    return scn.supplies[d].v_emf_v
+        if scn.supplies:
+            return next(iter(scn.supplies.values())).v_emf_v
+        return 0.0
+
+    # ------------------------------------------------------------ keys
+    def _key(self, b):
+        return ("br", self.name, b.group_index, b.joint_index)
+
+    def _path(self, b):
+        from sim.world.episodes import ShortPath
+
+        w = self.world
+        j = w.scn.track.joints[b.joint_index] if b.joint_index < len(w.scn.track.joints) \
+            else None
+        if j is None or j.index != b.joint_index:
+            j = next(x for x in w.scn.track.joints if x.index == b.joint_index)
+        chains = [w.layout.device_chain(e.section) for e in j.ends]
+        return ShortPath(self._key(b), ("train", self.name), "gap", j.name, self.name,
+                         w.path_threshold_a(chains))
+
+    # ----------------------------------------------------------- start
+    def start(self) -> None:
+        """Bridges on at time 0, the loads, and the train's process."""
+        t = self.world.env.now
+        self._reconcile(t)
+        self.pending = self.motion.next_bridge_events(t)
+        self.k = 0
+        self._place_loads(t)
+        self.proc = self.world.env.process(train_process(self.world, self))
+
+    def next_change_s(self) -> Optional[float]:
+        nxt = self.pending[self.k].t_s if self.k < len(self.pending) else None
+        if self.t_stop_s is not None and not self.stopped:
+            nxt = self.t_stop_s if nxt is None else min(nxt, self.t_stop_s)
+        return nxt
+
+    def apply_due(self, t_s: float) -> None:
+        """Apply every bridge change (and a keep-alive stop) due at ``t_s``."""
+        w = self.world
+        moved = False
+        while self.k < len(self.pending) and self.pending[self.k].t_s <= t_s + T_TOL_S:
+            e = self.pending[self.k]
+            self.k += 1
+            b = e.bridge
+            key = self._key(b)
+            if e.event == "on":
+                self.bridges[key] = b
+                w.set_bridge(key, b.joint_index, b.rail, b.r_ohm, self._path(b))
+            else:
+                self.bridges.pop(key, None)
+                w.clear_bridge(key)
+            moved = True
+        if self.t_stop_s is not None and not self.stopped and self.t_stop_s <= t_s + T_TOL_S:
+            self.stopped = True
+            w.record_train(t_s, self.name, "stop")
+        if moved:
+            self._place_loads(t_s)
+
+    def replan(self, t_s: float, cause) -> None:
+        """Interrupted by the world after a motion change: nothing to do but sleep anew."""
+
+    def _reconcile(self, t_s: float) -> None:
+        """Set the bridges on just after ``t_s``, clear the others.
+
+        The instant is taken to the engine's 1 ns resolution: a bridge whose
+        recomputed start lies within 1 ns after ``t_s`` (float rounding of a
+        re-planned motion) is on now, so a re-plan never drops and re-adds
+        the bridge that triggered it.
+        """
+        w = self.world
+        want = {self._key(b): b for b in self.motion.active_bridges(t_s + T_TOL_S)}
+        for key in [k for k in self.bridges if k not in want]:
+            del self.bridges[key]
+            w.clear_bridge(key)
+        for key, b in want.items():
+            if key not in self.bridges:
+                self.bridges[key] = b
+                w.set_bridge(key, b.joint_index, b.rail, b.r_ohm, self._path(b))
+
+    # ------------------------------------------------------------ loads
+    def _place_loads(self, t_s: float) -> None:
+        """Each locomotive's draw at the middle of the section it is in."""
+        if self.plan.draw_a <= 0.0 or self.v_nominal_v <= 0.0:
+            return
+        w = self.world
+        s = self.motion.position_s(t_s)
+        for p in self.plan.load_points(s):
+            key = ("ld", self.name, p.vehicle)
+            old = self.loads.get(key)
+            if old is not None and old[0] == p.section:
+                continue
+            sec = w.scn.track.sections[p.section]
+            chain = w.layout.device_chain(p.section)
+            if old is not None:
+                for d in old[1]:
+                    w.trains_on.get(d, set()).discard(self.name)
+            for d in chain:
+                w.trains_on.setdefault(d, set()).add(self.name)
+            self.loads[key] = (p.section, chain)
+            w.set_load(key, p.section, 0.5 * sec.length_m, self.v_nominal_v / p.draw_a)
+            w.check_train_later(self.name)
+
+    # ------------------------------------------------------------ power
+    def check_power(self, t_s: float, sol) -> None:
+        """Power lost or back, from the voltage at the locomotives' loads."""
+        if not self.loads:
+            return
+        w = self.world
+        ok = False
+        for key, (section, chain) in self.loads.items():
+            v = sol.load_v_v.get(key, 0.0)
+            closed = all(w.output_closed(d) for d in chain)
+            if closed and abs(v) >= 0.5 * self.v_nominal_v:
+                ok = True
+                break
+        m = self.motion
+        if ok == m.powered:
+            return
+        if ok:
+            m.power_back(t_s)
+            if self.stopped:
+                w.record_train(t_s, self.name, "go")
+            self.stopped = False
+            self.t_stop_s = None
+        else:
+            self.t_stop_s = m.power_lost(t_s)
+            self.stopped = self.t_stop_s <= t_s
+            if self.stopped:
+                w.record_train(t_s, self.name, "stop")
+        self._reconcile(t_s)
+        self.pending = m.next_bridge_events(t_s + T_TOL_S)
+        self.k = 0
+        if self.proc is not None and self.proc.is_alive:
+            self.proc.interrupt("replan")
+
+    # ----------------------------------------------------------- inrush
+    def inrush(self, t_s: float) -> float:
+        """Keep-alive capacitors charge again after their device closes (engine doc).
+
+        Returns the longest pulse started (s), 0 with none.
+        """
+        from sim.circuit.inrush import inrush
+
+        w = self.world
+        tau_max = 0.0
+        for key, (section, chain) in self.loads.items():
+            veh = self._vehicles[key[2]]
+            i_peak, tau = inrush(veh, self.v_nominal_v)
+            if i_peak <= 0.0 or tau <= 0.0:
+                continue
+            sec = w.scn.track.sections[section]
+            pkey = ("in", self.name, key[2])
+            w.env.process(pulse_process(w, pkey, section, 0.5 * sec.length_m,
+                                        self.v_nominal_v / i_peak, tau))
+            w.record(Event(t_s, self.name, "inrush", {"i_peak_a": i_peak, "tau_s": tau}))
+            tau_max = max(tau_max, tau)
+        return tau_max
+
+
+def build_runs(world: "World", plans=None) -> dict:
+    """A :class:`TrainRun` per train of the scenario (plans built when ``None``)."""
+    if not world.scn.trains:
+        return {}
+    if plans is None:
+        from sim.world.trains import build_trains
+
+        plans = build_trains(world.scn, world.layout)
+    return {name: TrainRun(world, name, plans[name]) for name in world.scn.trains}
