@@ -88,7 +88,8 @@ class SupplyDevice:
         self._check_time(t_s)
         self._t = max(self._t, t_s)
         self._i = float(abs(i_a))
-        self.peak_a = max(self.peak_a, self._i)
+        # what it delivers: a demand above the limit is held at the limit (or switched off)
+        self.peak_a = max(self.peak_a, min(self._i, self.i_limit_a))
 
     def observe_supply_v(self, t_s: float, v_v: float) -> None:
         """The terminal voltage is ``v_v`` from ``t_s`` on (ends a constant-current limit)."""

@@ -27,6 +27,13 @@ def _t(t_s: Optional[float]) -> str:
     return f"{t_s:.6f} s"
 
 
+def _dur(dt_s: Optional[float]) -> str:
+    """A duration: ms below 1 s, else s, three decimals."""
+    if dt_s is None or not math.isfinite(dt_s):
+        return "-"
+    return f"{dt_s * 1e3:.3f} ms" if abs(dt_s) < 1.0 else f"{dt_s:.3f} s"
+
+
 def _dt(dt_s: Optional[float]) -> str:
     """A duration or margin, signed, in ms."""
     if dt_s is None or not math.isfinite(dt_s):
@@ -94,8 +101,9 @@ def render_text(result: Result) -> str:
         rows = []
         for name, d in sorted(result.devices.items()):
             rows.append([name, d.kind, str(d.trips), str(d.swaps), str(d.restarts),
-                         f"{d.dark_s:.3f} s", _a(d.peak_a),
-                         "-" if d.max_thermal is None else f"{d.max_thermal:.3f} (x rated heat)"])
+                         _dur(d.dark_s), _a(d.peak_a),
+                         "-" if d.max_thermal is None
+                         else f"{d.max_thermal * 100:.1f} % of rated heat"])
         parts += ["Devices", _table(["device", "kind", "trips", "swaps", "restarts", "dark",
                                      "peak", "max thermal"], rows), ""]
     errors = [f for f in result.findings if f.severity == "error"]

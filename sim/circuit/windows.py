@@ -1,0 +1,181 @@
+"""Trip windows: where a device's trip threshold must lie.
+
+For each booster, breaker and reverser, over every section downstream of it:
+
+bottom
+    the steady draw of every train that can be in the district at once (the
+    locomotives' ``draw_a`` of each train whose route or start visits the
+    district) plus the power-up inrush of their keep-alive capacitors, which
+    all charge together when the district is switched on after a trip
+    (:func:`sim.circuit.inrush.inrush`: peak ``V/R``, time constant ``RC``).
+top
+    the weakest prospective coin current through the device anywhere in the
+    district (:mod:`sim.circuit.faultmap`), capped by the supply's limit.
+
+The threshold must lie above the bottom and below the top. The inrush decays:
+``I(t) = I_steady + I_peak exp(-t/tau)`` stays above the threshold for
+``tau ln(I_peak / (I_trip - I_steady))``; if that is shorter than the trip
+delay the device rides through it.
+
+Finding codes
+-------------
+RF-WIN-001 (error)   the trip threshold is at or above the weakest short in
+                     the district: a short there does not trip it.
+RF-WIN-002 (error)   the steady draw of the district's trains reaches the
+                     threshold: it trips in normal running.
+RF-WIN-003 (warning) the power-up inrush stays above the threshold for at
+                     least the trip delay: it may trip on every restart.
+RF-WIN-004 (warning) the continuous rating (thermal rated current, else the
+                     trip threshold) is more than 70 % of the weakest short
+                     current (common practice: keep it at 70 % or less).
+RF-WIN-005 (info)    the inrush crosses the threshold but for less than the trip delay.
+"""
+from __future__ import annotations
+
+import re
+from dataclasses import dataclass
+
+from sim.circuit.faultmap import FaultMap, chain_of, supply_of
+from sim.circuit.inrush import inrush, time_above_s
+from sim.model import Finding, Reversal, Scenario
+
+#: Continuous rating as a share of the weakest short current (common practice).
+RATING_SHARE = 0.70
+
+_TIMES = re.compile(r"^\s*(.+?)\s+x\s+(\d+)\s*$")
+
+
+@dataclass(frozen=True)
+class TripWindow:
+    """The window of one device (currents in A, times in s)."""
+
+    device: str
+    kind: str
+    sections: tuple
+    trains: tuple
+    i_steady_a: float
+    i_inrush_peak_a: float
+    tau_inrush_s: float
+    bottom_a: float
+    top_a: float
+    i_trip_a: float
+    t_after_s: float
+    i_rating_a: float
+    top_at: tuple
+
+
+def consist_vehicles(scn: Scenario, train) -> list:
+    """The vehicle records of a train's consist (``"name x N"`` expanded)."""
+    out = []
+    for item in train.consist:
+        name, count = item, 1
+        m = _TIMES.match(item)
+        if m and item not in scn.rolling_stock:
+            name, count = m.group(1), int(m.group(2))
+        v = scn.rolling_stock.get(name)
+        if v is not None:
+            out.extend([v] * count)
+    return out
+
+
+def train_sections(train) -> set:
+    """Every section a train's start and route visit."""
+    secs = {train.start.section}
+    for step in train.route:
+        if isinstance(step, str):
+            secs.add(step)
+        elif not isinstance(step, Reversal) and hasattr(step, "section"):
+            secs.add(step.section)
+    return secs
+
+
+def district_trains(scn: Scenario, sections) -> tuple:
+    """Trains whose start or route visits any of ``sections``."""
+    ss = set(sections)
+    return tuple(t for t, tr in scn.trains.items() if train_sections(tr) & ss)
+
+
+def train_load(scn: Scenario, trains, v_track_v: float):
+    """``(steady_a, inrush_peak_a, tau_s)`` of ``trains`` powered up together."""
+    steady = peak = tau = 0.0
+    for t in trains:
+        for v in consist_vehicles(scn, scn.trains[t]):
+            steady += v.draw_a
+            i_p, ta = inrush(v, v_track_v)
+            peak += i_p
+            tau = max(tau, ta)
+    return steady, peak, tau
+
+
+def trip_windows(scn: Scenario, fm: FaultMap) -> list:
+    """The :class:`TripWindow` of every device that has sections downstream."""
+    out = []
+    for kind, table in (("booster", scn.boosters), ("breaker", scn.breakers),
+                        ("reverser", scn.reversers)):
+        for name, dev in table.items():
+            secs = tuple(s for s, d in fm.district_of.items()
+                         if d is not None and scn.device_kind(d) not in (None, "supply")
+                         and name in chain_of(scn, d))
+            if not secs:
+                continue
+            pts = [(p.effective_i_a[p.chain.index(name)], p.section, p.at_m)
+                   for p in fm.points if p.section in secs and name in p.chain]
+            if not pts:
+                continue
+            top, top_sec, top_at = min(pts)
+            sup = supply_of(scn, name)
+            v = scn.supplies[sup].v_emf_v if sup in scn.supplies else 0.0
+            trains = district_trains(scn, secs)
+            steady, peak, tau = train_load(scn, trains, v)
+            thermal = getattr(dev, "thermal", None)
+            rating = thermal.i_rated_a if thermal is not None else dev.trip.i_above_a
+            out.append(TripWindow(name, kind, secs, trains, steady, peak, tau, steady + peak,
+                                  top, dev.trip.i_above_a, dev.trip.t_after_s, rating,
+                                  (top_sec, top_at)))
+    return out
+
+
+def window_findings(scn: Scenario, fm: FaultMap) -> list:
+    """Findings RF-WIN-001..005 (module docstring)."""
+    findings = []
+    for w in trip_windows(scn, fm):
+        table = w.kind + "s"
+        where = scn.where(table, w.device, "trip", "above")
+        window = (f"window {w.bottom_a:.2f} A (draw {w.i_steady_a:.2f} A + inrush "
+                  f"{w.i_inrush_peak_a:.2f} A) to {w.top_a:.2f} A (weakest short, "
+                  f"{w.top_at[0]} at {w.top_at[1]:.2f} m)")
+        if w.i_trip_a >= w.top_a:
+            findings.append(Finding(
+                "error", "RF-WIN-001", where,
+                f"{w.kind} {w.device} trips above {w.i_trip_a:g} A, at or above the weakest "
+                f"short in its district: {window}",
+                f"lower {w.device}'s trip below {w.top_a:.2f} A or strengthen the feeders"))
+        if w.i_trip_a <= w.i_steady_a:
+            findings.append(Finding(
+                "error", "RF-WIN-002", where,
+                f"{w.kind} {w.device} trips above {w.i_trip_a:g} A but its trains "
+                f"({', '.join(w.trains)}) draw {w.i_steady_a:.2f} A in normal running: {window}",
+                f"raise {w.device}'s trip or split the district"))
+        elif w.i_trip_a < w.bottom_a:
+            t_over = time_above_s(w.i_steady_a, w.i_inrush_peak_a, w.tau_inrush_s, w.i_trip_a)
+            if t_over >= w.t_after_s:
+                findings.append(Finding(
+                    "warning", "RF-WIN-003", where,
+                    f"power-up inrush keeps {w.device} above its {w.i_trip_a:g} A trip for "
+                    f"{t_over * 1e3:.2f} ms, longer than its {w.t_after_s * 1e3:.2f} ms delay: "
+                    f"it may trip on every restart; {window}",
+                    f"raise {w.device}'s trip delay above {t_over * 1e3:.2f} ms or limit the "
+                    f"keep-alives' charging current"))
+            else:
+                findings.append(Finding(
+                    "info", "RF-WIN-005", where,
+                    f"power-up inrush crosses {w.device}'s {w.i_trip_a:g} A trip for "
+                    f"{t_over * 1e3:.2f} ms, less than its {w.t_after_s * 1e3:.2f} ms delay"))
+        if w.i_rating_a > RATING_SHARE * w.top_a and w.i_trip_a < w.top_a:
+            findings.append(Finding(
+                "warning", "RF-WIN-004", where,
+                f"{w.device}'s continuous rating {w.i_rating_a:g} A is "
+                f"{100 * w.i_rating_a / w.top_a:.0f} % of the weakest short current "
+                f"{w.top_a:.2f} A (common practice: 70 % or less)",
+                "add feeders or heavier wire so far-end shorts draw more"))
+    return findings
