@@ -108,6 +108,18 @@ def _table(headers: Sequence[str], rows: Sequence[Sequence[str]], wrap: int = 60
     return "\n".join(out)
 
 
+FAULT_HEADERS = ["section", "at", "device", "prospective", "with supply limit", "trip above",
+                 "result"]
+
+
+def _fault_row(r: dict) -> list[str]:
+    """One fault-current row for people: the point, the device, what flows, whether it trips."""
+    pro = r.get("prospective_a", r["current_a"])
+    return [r["section"], f"{r['at_m']:.2f} m", r["device"], f"{pro:.2f} A",
+            f"{r['current_a']:.2f} A", f"{r['trip_a']:.2f} A",
+            "trips" if r["ok"] else "DOES NOT TRIP"]
+
+
 # ------------------------------------------------------------------- check
 def check_result(path: str, step_m: float = 0.5) -> dict:
     """Load ``path`` and run every static and circuit check; the contract's JSON object."""
@@ -149,15 +161,17 @@ def render_check(res: dict) -> str:
         out += ["Reversing cycles", _table(["cycle of sections", "reversing section(s)"], rows), ""]
     if res["fault_current"]:
         weakest: dict = {}
+        def weakness(r: dict) -> tuple:  # a miss first, then the least current per trip level
+            return (r["ok"], r["current_a"] / r["trip_a"] if r["trip_a"] else 0.0,
+                    r.get("prospective_a", r["current_a"]))
+
         for r in res["fault_current"]:
             cur = weakest.get(r["section"])
-            if cur is None or r["current_a"] < cur["current_a"]:
+            if cur is None or weakness(r) < weakness(cur):
                 weakest[r["section"]] = r
-        rows = [[s, f"{r['at_m']:.2f} m", f"{r['current_a']:.2f} A", r["device"],
-                 f"{r['trip_a']:.2f} A", "trips" if r["ok"] else "DOES NOT TRIP"]
-                for s, r in sorted(weakest.items())]
+        rows = [_fault_row(r) for _, r in sorted(weakest.items())]
         out += ["Weakest coin-test short per section",
-                _table(["section", "at", "fault current", "device", "trip above", "result"], rows), ""]
+                _table(FAULT_HEADERS, rows), ""]
     out.append(f"{counts['error']} error(s), {counts['warning']} warning(s), {counts['info']} note(s).")
     out.append("Verdict: PASS - no errors found." if res["verdict"] == "pass"
                else "Verdict: FAIL - the layout has errors (see above).")
@@ -189,10 +203,7 @@ def cmd_faultmap(args) -> int:
                            "step_m": args.step, "coin_ohm": args.coin,
                            "findings": findings, "fault_current": rows}, indent=2)
     else:
-        table = _table(["section", "at", "fault current", "device", "trip above", "result"],
-                       [[r["section"], f"{r['at_m']:.2f} m", f"{r['current_a']:.2f} A", r["device"],
-                         f"{r['trip_a']:.2f} A", "trips" if r["ok"] else "DOES NOT TRIP"]
-                        for r in rows])
+        table = _table(FAULT_HEADERS, [_fault_row(r) for r in rows])
         parts = [f"railfault faultmap: {scn.title}  (coin {args.coin:g} ohm, step {args.step:g} m)",
                  "", table, ""]
         if findings:

@@ -192,7 +192,8 @@ def fault_map(scn: Scenario, layout=None, step_m: float = 0.5,
             trips.append(bool(trip))
             rows.append({"section": section, "at_m": round(at_m, 6),
                          "current_a": round(i_eff, 6), "device": d,
-                         "trip_a": i_above, "ok": bool(trip)})
+                         "trip_a": i_above, "ok": bool(trip),
+                         "prospective_a": round(i_dev, 6)})
         points.append(FaultPoint(section, at_m, float(abs(v_oc)), float(r_th),
                                  float(abs(i_s)), chain, tuple(dev_i), tuple(eff_i),
                                  tuple(trips)))
