@@ -141,6 +141,9 @@ def parse_text(text: str, doc: Document) -> None:
         mark = exc.problem_mark or exc.context_mark
         where = (mark.line + 1, mark.column + 1) if mark is not None else None
         what = exc.problem or exc.context or "cannot be read"
+        if "nesting depth" in what:  # newer PyYAML scanners stop deep nesting themselves
+            doc.problem((), f"nested deeper than {MAX_DEPTH} levels", where)
+            return
         extra = f" ({exc.context})" if exc.context and exc.problem else ""
         doc.problem((), f"not valid YAML: {what}{extra}", where)
         return
