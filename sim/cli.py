@@ -27,6 +27,7 @@ import tempfile
 from typing import Callable, Optional, Sequence
 
 from sim.errors import Problem, ScenarioError
+from sim.textfmt import table as _table
 
 #: Printed under every human-readable report.
 CAUTION = (
@@ -88,24 +89,6 @@ def _print_problems(problems: Sequence[Problem]) -> None:
     sys.stderr.write(f"railfault: the input could not be used ({n} problem{'s' if n != 1 else ''}):\n")
     for p in problems:
         sys.stderr.write(f"  {p}\n")
-
-
-def _table(headers: Sequence[str], rows: Sequence[Sequence[str]], wrap: int = 60) -> str:
-    """A plain fixed-width text table; cells longer than ``wrap`` characters wrap."""
-    import textwrap
-
-    cells = [[textwrap.wrap(c, wrap) or [""] for c in row] for row in rows]
-    widths = [len(h) for h in headers]
-    for row in cells:
-        for i, lines in enumerate(row):
-            widths[i] = max(widths[i], *(len(x) for x in lines))
-    out = ["  ".join(h.ljust(w) for h, w in zip(headers, widths)).rstrip(),
-           "  ".join("-" * w for w in widths)]
-    for row in cells:
-        for k in range(max(len(lines) for lines in row)):
-            out.append("  ".join((lines[k] if k < len(lines) else "").ljust(w)
-                                 for lines, w in zip(row, widths)).rstrip())
-    return "\n".join(out)
 
 
 FAULT_HEADERS = ["section", "at", "device", "prospective", "with supply limit", "trip above",

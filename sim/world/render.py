@@ -8,6 +8,7 @@ from __future__ import annotations
 import math
 from typing import Optional, Sequence
 
+from sim.textfmt import table as _table
 from sim.trace import Result
 
 OUTCOME_WORDS = {
@@ -47,14 +48,26 @@ def _a(i_a: Optional[float]) -> str:
     return f"{i_a:.2f} A"
 
 
-def _table(head: Sequence[str], rows: Sequence[Sequence[str]]) -> str:
-    widths = [len(h) for h in head]
-    for r in rows:
-        widths = [max(w, len(c)) for w, c in zip(widths, r)]
-    line = lambda cells: "  ".join(c.ljust(w) for c, w in zip(cells, widths)).rstrip()
-    out = [line(head), line(["-" * w for w in widths])]
-    out += [line(r) for r in rows]
-    return "\n".join(out)
+_UNITS = (("_ohm", "ohm", 4), ("_a", "A", 3), ("_v", "V", 3), ("_m", "m", 3))
+
+
+def _data_text(data) -> str:
+    """An event's details as ``name value unit`` pairs (the unit read off the key's suffix)."""
+    out = []
+    for k, v in data.items():
+        if isinstance(v, float):
+            if k.endswith("_s"):
+                out.append(f"{k[:-2]} {_t(v)}")
+                continue
+            for suffix, unit, digits in _UNITS:
+                if k.endswith(suffix):
+                    out.append(f"{k[:-len(suffix)]} {v:.{digits}f} {unit}")
+                    break
+            else:
+                out.append(f"{k} {v:g}")
+        else:
+            out.append(f"{k} {v}")
+    return ", ".join(out)
 
 
 def render_text(result: Result) -> str:
@@ -106,6 +119,10 @@ def render_text(result: Result) -> str:
                          else f"{d.max_thermal * 100:.1f} % of rated heat"])
         parts += ["Devices", _table(["device", "kind", "trips", "swaps", "restarts", "dark",
                                      "peak", "max thermal"], rows), ""]
+    if result.events is not None:
+        rows = [[_t(e.t_s), e.device, e.event, _data_text(e.data)] for e in result.events]
+        parts += [f"Events ({len(rows)})", _table(["time", "device / place", "event", "details"],
+                                                  rows), ""]
     errors = [f for f in result.findings if f.severity == "error"]
     others = [f for f in result.findings if f.severity != "error"]
     if result.findings:
