@@ -20,6 +20,7 @@ from dataclasses import dataclass, field
 from typing import Any, Callable, Optional
 
 from sim import units as U
+from sim.units import describe
 from sim.model import CURVES
 from sim.units import QuantityError
 
@@ -49,23 +50,6 @@ class _Sentinel:
 
 REQUIRED = _Sentinel("REQUIRED")
 INVALID = _Sentinel("INVALID")
-
-
-def describe(value: Any) -> str:
-    """How a message shows a value the file gave."""
-    if isinstance(value, str):
-        return f'"{value}"'
-    if value is None:
-        return "nothing (null)"
-    if isinstance(value, bool):
-        return "true" if value else "false"
-    if isinstance(value, (int, float)):
-        return repr(value)
-    if isinstance(value, dict):
-        return "a mapping"
-    if isinstance(value, list):
-        return "a list"
-    return type(value).__name__
 
 
 def either_or(words, last: str = "or") -> str:

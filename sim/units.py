@@ -32,7 +32,7 @@ from typing import Optional
 __all__ = [
     "Dimension", "QuantityError", "DIMENSIONS", "TIME", "CURRENT", "VOLTAGE", "RESISTANCE",
     "LENGTH", "AREA", "SPEED", "RESISTANCE_PER_LENGTH", "CAPACITANCE", "DIMENSIONLESS",
-    "registry", "parse_quantity", "parse_awg", "is_awg", "AWG_MIN", "AWG_MAX",
+    "registry", "describe", "parse_quantity", "parse_awg", "is_awg", "AWG_MIN", "AWG_MAX",
     "MAX_QUANTITY_CHARS", "dimension_of",
 ]
 
@@ -138,7 +138,8 @@ def dimension_of(exponents: tuple[tuple[str, int], ...]) -> Optional[Dimension]:
     return DIMENSIONLESS if not exponents else None
 
 
-def _describe(value: object) -> str:
+def describe(value: object) -> str:
+    """How a message shows a value the file gave (``"2 A"``, ``a mapping``, ``true``)."""
     if isinstance(value, str):
         return f'"{value}"'
     if value is None:
@@ -176,7 +177,7 @@ def parse_quantity(value: object, dim: Dimension) -> float:
     QuantityError
         With a message such as ``expected a time (s), got "2 A"``.
     """
-    got = _describe(value)
+    got = describe(value)
     if isinstance(value, bool) or value is None or isinstance(value, (dict, list)):
         raise QuantityError(f"expected {dim.label}, got {got}")
     if isinstance(value, (int, float)):
@@ -245,7 +246,7 @@ def parse_awg(value: object) -> float:
     QuantityError
         For anything else, or a gauge outside 0000 .. 40.
     """
-    got = _describe(value)
+    got = describe(value)
     m = _AWG_RE.match(value) if isinstance(value, str) else None
     if m is None:
         raise QuantityError(f'expected a wire gauge (e.g. "14 AWG"), got {got}')
