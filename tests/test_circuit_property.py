@@ -8,12 +8,15 @@ results compared (rtol 1e-9).
 from __future__ import annotations
 
 import math
+from unittest import mock
 
 import numpy as np
+import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from circuit_builders import booster, breaker, joint, reverser, scenario, section, supply
+from circuit_builders import (booster, breaker, joint, ladder, reverser, scenario, section,
+                              supply)
 from sim.circuit import build_circuit
 from sim.model import Wire
 
@@ -135,3 +138,37 @@ def test_incremental_equals_full_and_kirchhoff_holds(scn, seed):
         full = c.solve()
         assert inc.method == "incremental" and full.method == "full"
         assert_same(inc, full, floor)
+
+
+@pytest.mark.parametrize("k_fold", [0, 6])
+def test_incremental_equals_full_when_changes_fold_into_the_base(k_fold):
+    # the same random sequences, with every active change folded into a new base
+    # (the touched parts re-factored) as soon as more than k_fold port nodes change
+    with mock.patch("sim.circuit.network.K_FOLD", k_fold):
+        test_incremental_equals_full_and_kirchhoff_holds()
+
+
+def test_folding_refactors_only_the_parts_touched():
+    # four supplies, eight boosters: four parts in the base network. Many loads
+    # moving in one part fold into new bases; the other parts keep their factors,
+    # and every incremental solve equals a full re-solve (rtol 1e-9).
+    scn = ladder(16, length=5.0, boosters=8, supplies=4)
+    c = build_circuit(scn, grid_m=1.0)
+    floor = rounding_floor_a(c)
+    rng = np.random.default_rng(7)
+    with mock.patch("sim.circuit.network.K_FOLD", 8):
+        for step in range(30):
+            sec = f"s{int(rng.integers(0, 4))}"          # boosters b0, b1 (supply psu0, psu1)
+            c.set_load(f"ld{step % 12}", sec, float(rng.uniform(0, 5.0)), float(rng.uniform(5, 50)))
+            if step == 10:
+                c.set_short("k", "s1", 2.5, 0.05)
+            if step == 20:
+                c.clear_short("k")
+            inc = c.update()
+            assert inc.method == "incremental"
+            assert_same(inc, c.solve(), floor)
+    n_parts = len(c._base.wb.lu.idx)
+    assert n_parts == 4
+    assert c.rebases >= 3
+    # each fold touches at most the two parts holding sections s0..s3
+    assert c.parts_factored <= 2 * c.rebases

@@ -41,7 +41,7 @@ from __future__ import annotations
 
 import math
 from collections import OrderedDict
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from types import MappingProxyType
 from typing import Mapping, Optional
 
@@ -51,7 +51,8 @@ from scipy.sparse.csgraph import connected_components
 from scipy.sparse.linalg import splu
 
 from sim.circuit.build import R_MIN_OHM, SectionNet, Topology
-from sim.circuit.incremental import K_MAX, SNAP_FRACTION, SingularUpdate, Woodbury, segment_star
+from sim.circuit.incremental import (K_FOLD, K_MAX, SNAP_FRACTION, SingularUpdate, Woodbury,
+                                      segment_star)
 from sim.circuit.parts import PartTracker
 from sim.errors import RailfaultError
 from sim.model import Finding
@@ -63,8 +64,15 @@ G_ANCHOR_S = 1.0
 BASES_KEPT = 4
 
 #: An update whose port currents exceed the solution's largest current by this
-#: factor has cancelled that many digits: re-factor on the present switching state.
-CANCEL_MAX = 1.0e4
+#: factor has cancelled that many digits: fold the present state into a new base
+#: (1e2: the ill-conditioned states of zero-ohm boosters and shorts need it to
+#: stay within rtol 1e-9 of a full solve).
+CANCEL_MAX = 1.0e2
+
+#: Bridges, loads and shorts above this conductance (below 0.1 ohm) are never
+#: folded into a base: removing one later as a low-rank change would cancel
+#: digits of the base (they stay low-rank changes; they are few and short-lived).
+G_FOLD_MAX_S = 10.0
 
 #: Kirchhoff residual allowed, relative to the largest current of the solve.
 KCL_RTOL = 1e-9
@@ -119,6 +127,52 @@ class _Base:
     cc: frozenset              # supplies in constant-current mode
     anchor_delta: dict         # anchors against the original base
     wb: Optional[Woodbury]
+    folded: dict = field(default_factory=dict)   # additions in the base: key -> (sig, nodes, D)
+    a: object = None           # the base matrix (sparse), when not the original one
+
+
+class _Tracked(dict):
+    """A dict of active additions that records which keys changed since last read."""
+
+    def __init__(self):
+        super().__init__()
+        self.dirty: set = set()
+        self.all_dirty = False
+
+    def __setitem__(self, key, value):
+        self.dirty.add(key)
+        super().__setitem__(key, value)
+
+    def __delitem__(self, key):
+        self.dirty.add(key)
+        super().__delitem__(key)
+
+    def pop(self, key, *default):
+        self.dirty.add(key)
+        return super().pop(key, *default)
+
+    def popitem(self):
+        key, value = super().popitem()
+        self.dirty.add(key)
+        return key, value
+
+    def clear(self):
+        self.all_dirty = True
+        super().clear()
+
+    def update(self, *args, **kw):
+        self.all_dirty = True
+        super().update(*args, **kw)
+
+    def setdefault(self, key, default=None):
+        self.dirty.add(key)
+        return super().setdefault(key, default)
+
+    def take_dirty(self):
+        """``(keys, everything)``: the changed keys, and whether all may have changed."""
+        keys, everything = self.dirty, self.all_dirty
+        self.dirty, self.all_dirty = set(), False
+        return keys, everything
 
 
 @dataclass
@@ -235,11 +289,23 @@ class Circuit:
         self._sup_v = np.array([s.v_emf_v for s in sups], dtype=float)
         self._sup_cc = np.full(len(sups), math.inf)
         self._sup_limit = np.array([s.i_limit_a for s in sups], dtype=float)
-        self.bridges: dict = {}
-        self.loads: dict = {}
-        self.shorts: dict = {}
+        self.bridges: dict = _Tracked()
+        self.loads: dict = _Tracked()
+        self.shorts: dict = _Tracked()
+        # the additions, kept up to date from the tables' changed keys (_additions)
+        self._adds: dict = {}
+        self._add_of: dict = {}        # (table, key) -> its key in _adds
+        self._seg_members: dict = {}   # (section, k) -> {(is_short, key): _Attach}
+        self._joins: dict = {}         # (table, key) -> node pairs it joins
+        self._seg_out: dict = {}
+        self._rows: dict = {1: {}, 2: {}}  # load/short key -> (4 nodes, 4 weights, y, node)
+        self._strong: set = set()      # additions above G_FOLD_MAX_S: never folded
+        self._add_arrays = None
         self.feeders_open: set = set()
         self._seg_cache: dict = {}
+        self._node_items: dict = {}
+        self._floating_cache: dict = {}
+        self._dev_ol = None
         self._block_sections = None
         self._orig = _Base(self._key(), np.ones(len(devs), dtype=np.int64), frozenset(),
                            frozenset(), {}, None)
@@ -247,6 +313,7 @@ class Circuit:
         self._bases: OrderedDict = OrderedDict()
         self._kcl_terms = 0.0
         self.rebases = 0
+        self.parts_factored = 0
 
     def _sw(self, elem, u, v):
         self._sw_u.append(int(u))
@@ -392,37 +459,137 @@ class Circuit:
             items.append(_lap([(s.p, s.n, sign * self._sg[i])]))
         return items
 
-    def _changes(self, base: Optional["_Base"] = None):
-        """All active changes against ``base`` (default: the original base)."""
+    def _additions(self):
+        """The bridges, loads and shorts now active, keyed for folding.
+
+        Returns ``(adds, joins, seg_out)``: ``adds`` maps a key (a bridge, a
+        load or short at a node pair, or a segment holding loads/shorts) to
+        ``(signature, nodes, D)``; equal signatures mean equal ``D``. ``joins``
+        is an ``(m, 2)`` array of node pairs the additions join. They are kept
+        up to date from the keys changed since the last call, so one change
+        costs work for that change only (and for the segment it sits in).
+        """
+        changed = []
+        for tid, table in ((0, self.bridges), (1, self.loads), (2, self.shorts)):
+            keys, everything = table.take_dirty()
+            if everything:
+                keys = {k for (t, k) in self._add_of if t == tid} | set(table)
+            changed.extend((tid, k) for k in keys)
+        if not changed and self._add_arrays is not None:
+            return self._adds, self._add_arrays, self._seg_out
+        segs_dirty = set()
+        for tid, key in changed:
+            old = self._add_of.pop((tid, key), None)
+            self._joins.pop((tid, key), None)
+            if old is not None:
+                if old[0] == "seg":
+                    members = self._seg_members.get(old[1:])
+                    if members is not None:
+                        members.pop((tid == 2, key), None)
+                    self._seg_out.pop((tid == 2, key), None)
+                    segs_dirty.add(old[1:])
+                else:
+                    self._adds.pop(old, None)
+                    self._strong.discard(old)
+            if tid:
+                self._rows[tid].pop(key, None)
+            table = (self.bridges, self.loads, self.shorts)[tid]
+            if key not in table:
+                continue
+            if tid == 0:
+                ji, rail, g, pairs, delta = table[key]
+                akey = ("br", key)
+                self._adds[akey] = ((ji, rail, g), delta[0], delta[1])
+                self._strong.discard(akey)
+                if g > G_FOLD_MAX_S:
+                    self._strong.add(akey)
+                self._joins[(tid, key)] = [tuple(pr) for pr in pairs]
+                self._add_of[(tid, key)] = akey
+                continue
+            a = table[key]
+            if len(a.nodes) == 2:
+                akey = ("nd", tid == 2, key)
+                hit = self._node_items.get((a.nodes, a.y_s))
+                if hit is None:
+                    hit = _lap([(a.nodes[0], a.nodes[1], a.y_s)])
+                    if len(self._node_items) > 4096:
+                        self._node_items.clear()
+                    self._node_items[(a.nodes, a.y_s)] = hit
+                self._adds[akey] = ((a.nodes, a.y_s), hit[0], hit[1])
+                self._strong.discard(akey)
+                if a.y_s > G_FOLD_MAX_S:
+                    self._strong.add(akey)
+                n0, n1 = a.nodes
+                self._rows[tid][key] = (n0, n1, n0, n1, 1.0, -1.0, 0.0, 0.0, a.y_s, n0)
+                self._joins[(tid, key)] = [a.nodes]
+                self._add_of[(tid, key)] = akey
+            else:
+                sk = (a.section, a.k)
+                self._seg_members.setdefault(sk, {})[(tid == 2, key)] = a
+                self._joins[(tid, key)] = [(a.nodes[0], a.nodes[2])]
+                self._add_of[(tid, key)] = ("seg",) + sk
+                segs_dirty.add(sk)
+        for sk in segs_dirty:
+            akey = ("seg",) + sk
+            members = self._seg_members.get(sk)
+            self._strong.discard(akey)
+            if not members:
+                self._seg_members.pop(sk, None)
+                self._adds.pop(akey, None)
+                continue
+            if any(a.y_s > G_FOLD_MAX_S for a in members.values()):
+                self._strong.add(akey)
+            ms = sorted((((a.t, is_short, str(key)), is_short, key, a)
+                         for (is_short, key), a in members.items()), key=lambda m: m[0])
+            sig = tuple((m[3].t, m[3].y_s) for m in ms)
+            d, rv = self._seg_group(sk[0], sk[1], [m[3] for m in ms])
+            nodes = np.array(ms[0][3].nodes, dtype=np.int64)
+            self._adds[akey] = (sig, nodes, d)
+            nl = tuple(nodes.tolist())
+            for row, (_, is_short, key, a) in enumerate(ms):
+                self._seg_out[(is_short, key)] = (nodes, rv[row])
+                self._rows[2 if is_short else 1][key] = nl + tuple(rv[row].tolist()) + (
+                    a.y_s, a.nodes[0])
+        pairs = [pr for prs in self._joins.values() for pr in prs]
+        self._add_arrays = np.array(pairs, dtype=np.int64).reshape(len(pairs), 2)
+        return self._adds, self._add_arrays, self._seg_out
+
+    def _changes(self, base: Optional["_Base"] = None, detail: bool = False,
+                 foldable: bool = False):
+        """All active changes against ``base`` (default: the original base).
+
+        The additions folded into ``base`` count only where they differ from
+        the present ones. With ``detail`` also the present additions and
+        anchor changes are returned (what a new folded base would hold).
+        """
         base = base or self._orig
         items = self._structural_items(base)
-        joins = []
-        for _, _, _, pairs, delta in self.bridges.values():
-            items.append(delta)
-            joins.extend(pairs)
-        segs: dict = {}
-        for table in (self.loads, self.shorts):
-            for key, a in table.items():
-                if len(a.nodes) == 2:
-                    items.append(_lap([(a.nodes[0], a.nodes[1], a.y_s)]))
-                    joins.append(a.nodes)
-                else:
-                    segs.setdefault((a.section, a.k), []).append((table is self.shorts, key, a))
-                    joins.append((a.nodes[0], a.nodes[2]))
-        seg_out = {}
-        for (section, k), members in segs.items():
-            members.sort(key=lambda m: (m[2].t, m[0], str(m[1])))
-            d, rv = self._seg_group(section, k, [m[2] for m in members])
-            nodes = np.array(members[0][2].nodes, dtype=np.int64)
+        adds, joins, seg_out = self._additions()
+        if foldable and self._strong:
+            # the state a new base holds: without the strong additions
+            adds = {k: v for k, v in adds.items() if k not in self._strong}
+            pairs = [pr for tk, prs in self._joins.items()
+                     if self._add_of.get(tk) not in self._strong for pr in prs]
+            joins = np.array(pairs, dtype=np.int64).reshape(len(pairs), 2)
+        folded = base.folded
+        for akey, (sig, nodes, d) in adds.items():
+            old = folded.get(akey)
+            if old is not None:
+                if old[0] == sig:
+                    continue
+                items.append((old[1], -old[2]))
             items.append((nodes, d))
-            for row, (is_short, key, a) in enumerate(members):
-                seg_out[(is_short, key)] = (nodes, rv[row])
+        for akey, old in folded.items():
+            if akey not in adds:
+                items.append((old[1], -old[2]))
         st = self._structure()
         anchor_delta, group_of = self.parts.merge(st, joins)
         for node in set(anchor_delta) | set(base.anchor_delta):
             dg = anchor_delta.get(node, 0.0) - base.anchor_delta.get(node, 0.0)
             if dg != 0.0:
                 items.append((np.array([node], dtype=np.int64), np.array([[dg]])))
+        if detail:
+            return items, seg_out, st, group_of, adds, anchor_delta
         return items, seg_out, st, group_of
 
     @staticmethod
@@ -471,16 +638,23 @@ class Circuit:
             if not src:
                 floating.add(int(c))
         if floating:
-            by_group: dict = {}
-            for blk, names in self._block_sections.items():
-                c = int(st.comp_of_block[blk])
-                if c in floating:
-                    by_group.setdefault(group_of(c)[0], set()).update(names)
-            for names in by_group.values():
-                findings.append(Finding(
+            fkey = (id(st), tuple(sorted((c, group_of(c)[0]) for c in floating)))
+            hit = self._floating_cache.get(fkey)
+            if hit is None or hit[0] is not st:
+                by_group: dict = {}
+                for blk, names in self._block_sections.items():
+                    c = int(st.comp_of_block[blk])
+                    if c in floating:
+                        by_group.setdefault(group_of(c)[0], set()).update(names)
+                found = [Finding(
                     "warning", "RF-CKT-001", ", ".join(sorted(names)),
                     f"no source reaches section(s) {', '.join(sorted(names))} (floating): "
-                    f"taken as 0 V and 0 A"))
+                    f"taken as 0 V and 0 A") for names in by_group.values()]
+                if len(self._floating_cache) > 256:
+                    self._floating_cache.clear()
+                hit = (st, found)
+                self._floating_cache[fkey] = hit
+            findings.extend(hit[1])
         return floating
 
     def solve(self) -> Solution:
@@ -521,100 +695,122 @@ class Circuit:
                               j, findings, resid, "full")
 
     def update(self) -> Solution:
-        """The present state's solution by low-rank updates (cost independent of layout size).
+        """The present state's solution by low-rank updates of the base (module docstring).
 
-        The low-rank update is taken against the present *base* factorization.
-        When the switching state leaves a part floating, when the update
-        cancels more than four digits (its port currents exceed the result's
-        largest current by :data:`CANCEL_MAX`), or a solve misses Kirchhoff's
-        law, the circuit re-factors
-        with the present switching state as its base (:meth:`_rebase`; the last
-        few bases are kept, so toggling back is cheap) and solves again.
+        The low-rank update is taken against the present *base* factorization,
+        which holds a switching state and the additions (bridges, loads,
+        shorts) folded into it. When the changes against the base exceed
+        :data:`~sim.circuit.incremental.K_FOLD` port nodes, when the switching
+        state leaves a part floating, when the update cancels more than four
+        digits (its port currents exceed the result's largest current by
+        :data:`CANCEL_MAX`), or a solve misses Kirchhoff's law, the circuit
+        folds the present state into a new base (:meth:`_rebase`, re-factoring
+        only the parts the changes touch; the last few bases are kept, so
+        toggling back is cheap) and solves again.
         """
         key = self._key()
         for attempt in range(2):
             base = self._base
-            items, seg_out, st, group_of = self._changes(base)
+            items, seg_out, st, group_of, adds, anchors = self._changes(base, detail=True)
             ports, d = self._combine(items)
+            fresh = base.key == key and len(ports) == 0
+            n_strong = sum(len(adds[a][1]) for a in self._strong if a in adds)
+            if len(ports) > K_FOLD + n_strong and attempt == 0:
+                self._rebase(key, st, adds, anchors, ports, d)
+                continue
             if len(ports) > K_MAX:
                 return self.solve()
             findings: list = []
             j = self._sources(st, group_of, findings)
             floating = self._floating(st, group_of, findings)
             if floating and base.key != key and attempt == 0:
-                self._rebase(key, st)
+                self._rebase(key, st, adds, anchors, ports, d)
                 continue
             if base.wb is None:
                 base.wb = Woodbury(self._base_matrix(base), self._inj, self.q_nodes)
             try:
-                v_q, v_p, res, mvec = base.wb.solve(ports, d, j)
-                pmap = dict(zip(ports.tolist(), v_p.tolist()))
+                wb = base.wb
+                v_q, v_p, res, mvec = wb.solve(ports, d, j)
+                need = [p for _, _, _, pairs, _ in self.bridges.values()
+                        for pr in pairs for p in pr]
+                for table in (self.loads, self.shorts):
+                    for a in table.values():
+                        need.extend(a.nodes)
+                need_arr = np.unique(np.array(need, dtype=np.int64))
+                at = np.searchsorted(ports, need_arr)
+                if len(ports) and bool(np.all(ports[np.minimum(at, len(ports) - 1)] == need_arr)):
+                    v_need = v_p[at]                # every node needed is a port
+                else:
+                    v_need = wb.voltages(need_arr, j)
 
-                def vget(nodes, pmap=pmap, v_q=v_q):
-                    # bridges, loads and shorts are always ports; a device node is in Q
-                    out = []
-                    for nd in nodes:
-                        nd = int(nd)
-                        if nd in pmap:
-                            out.append(pmap[nd])
-                        else:
-                            out.append(float(v_q[np.searchsorted(self.q_nodes, nd)]))
-                    return np.array(out)
+                def vget(nodes, need_arr=need_arr, v_need=v_need):
+                    return v_need[np.searchsorted(need_arr, np.asarray(nodes, dtype=np.int64))]
 
                 resid = float(np.max(np.abs(res))) if res.size else 0.0
                 self._kcl_terms = (float(np.max(np.abs(d)) * max(np.max(np.abs(v_p)), 1.0))
                                    if res.size else 0.0)
                 sol = self._solution(v_q, vget, seg_out, st, group_of, floating, j, findings,
                                      resid, "incremental")
-                if attempt == 0 and base.key != key and mvec.size:
+                if attempt == 0 and not fresh and mvec.size:
                     scale = max(list(sol.device_i_a.values())
                                 + [abs(v) for v in sol.supply_i_a.values()] + [1e-3])
                     if float(np.max(np.abs(mvec))) > CANCEL_MAX * scale:
-                        self._rebase(key, st)
+                        self._rebase(key, st, adds, anchors, ports, d)
                         continue
                 return sol
             except (KirchhoffError, SingularUpdate):
-                if attempt == 1 or base.key == key:
+                if attempt == 1 or fresh:
                     raise
-                self._rebase(key, st)
+                self._rebase(key, st, adds, anchors, ports, d)
         raise SingularUpdate("no base solves this state")
 
     def _base_matrix(self, base: "_Base"):
-        if base is self._orig:
-            return self._a0
-        items = self._structural_items_between(self._orig, base)
-        for node, dg in base.anchor_delta.items():
-            items.append((np.array([node], dtype=np.int64), np.array([[dg]])))
-        return self._assemble(items).tocsc()
+        if base.a is not None:
+            return base.a
+        return self._a0
 
-    def _structural_items_between(self, a: "_Base", b: "_Base"):
-        saved = (self._closed.copy(), self._swapped.copy(), set(self.feeders_open),
-                 self._sup_cc.copy())
-        try:
-            self._closed = b.codes > 0
-            self._swapped = b.codes == 2
-            self.feeders_open = set(b.feeders_open)
-            self._sup_cc = np.where(np.isin(np.arange(len(self._sup_cc)), list(b.cc)), 1.0,
-                                    math.inf)
-            return self._structural_items(a)
-        finally:
-            self._closed, self._swapped, fo, self._sup_cc = saved
-            self.feeders_open = fo
+    def _rebase(self, key, st, adds, anchors, ports, d) -> None:
+        """Make the present state (switching and additions) the base of the updates.
 
-    def _rebase(self, key, st) -> None:
-        """Make the present switching state the base of the low-rank updates."""
+        A kept base of the same switching state is taken when the present
+        state differs from it by at most :data:`K_FOLD` port nodes. Otherwise
+        the new base matrix is the present base plus the change ``(ports, d)``
+        against it (``A = A_base + E_P D E_P^T``, one sparse sum), and only the
+        connected parts holding a port are re-factored
+        (:class:`~sim.circuit.incremental.Woodbury` with ``prev``).
+        """
         hit = self._bases.get(key)
-        if hit is None:
-            cc = frozenset(np.nonzero(np.isfinite(self._sup_cc))[0].tolist())
-            hit = _Base(key, self._codes().copy(), frozenset(self.feeders_open), cc,
-                        dict(st.anchor_delta), None)
-            self._bases[key] = hit
-            self.rebases += 1
-            while len(self._bases) > BASES_KEPT:
-                self._bases.popitem(last=False)
-        else:
-            self._bases.move_to_end(key)
-        self._base = hit
+        if hit is not None and hit is not self._base:
+            items = self._changes(hit)[0]
+            if len(self._combine(items)[0]) <= K_FOLD:
+                self._bases.move_to_end(key)
+                self._base = hit
+                return
+        prev = self._base
+        if prev.wb is None:
+            prev.wb = Woodbury(self._base_matrix(prev), self._inj, self.q_nodes)
+        if self._strong:
+            items, _, _, _, adds, anchors = self._changes(prev, detail=True, foldable=True)
+            ports, d = self._combine(items)
+        a = self._base_matrix(prev).tocsr()
+        if len(ports):
+            m = len(ports)
+            a = (a + coo_matrix((d.ravel(), (np.repeat(ports, m), np.tile(ports, m))),
+                                shape=a.shape).tocsr()).tocsr()
+            scale_g = float(np.max(np.abs(a.data))) if a.nnz else 1.0
+            a.data[np.abs(a.data) < 1e-14 * scale_g] = 0.0
+            a.eliminate_zeros()
+        cc = frozenset(np.nonzero(np.isfinite(self._sup_cc))[0].tolist())
+        wb = Woodbury(a, self._inj, self.q_nodes, prev=prev.wb, touched=ports)
+        new = _Base(key, self._codes().copy(), frozenset(self.feeders_open), cc,
+                    dict(anchors), wb, dict(adds), a)
+        self._bases[key] = new
+        self._bases.move_to_end(key)
+        self.rebases += 1
+        self.parts_factored += wb.lu.n_factored
+        while len(self._bases) > BASES_KEPT:
+            self._bases.popitem(last=False)
+        self._base = new
 
     def _assemble(self, items):
         n = self.n_nodes
@@ -650,52 +846,63 @@ class Circuit:
         i1 = np.where(self._closed, g * (v[:, 0] - other_a), 0.0)
         i2 = np.where(self._closed, g * (v[:, 1] - other_b), 0.0)
         if floating:
-            blk = self.parts.block_of_node
-            for k, name in enumerate(self._dev_names):
-                if int(st.comp_of_block[blk[self.topo.devices[name].o_l]]) in floating:
-                    i1[k] = i2[k] = 0.0
-        dev_i = {n: float(max(abs(a), abs(b))) for n, a, b in zip(self._dev_names, i1, i2)}
-        dev_lead = {n: (-float(a), -float(b)) for n, a, b in zip(self._dev_names, i1, i2)}
+            fl = np.zeros(st.n_comp, dtype=bool)    # per component: floating
+            fl[list(floating)] = True
+        if floating and len(i1):
+            if self._dev_ol is None:
+                self._dev_ol = np.array([self.topo.devices[nm].o_l for nm in self._dev_names],
+                                        dtype=np.int64)
+            off = fl[st.comp_of_block[self.parts.block_of_node[self._dev_ol]]]
+            i1[off] = 0.0
+            i2[off] = 0.0
+        dev_vals = np.maximum(np.abs(i1), np.abs(i2)).tolist()
+        dev_i = dict(zip(self._dev_names, dev_vals))
+        dev_lead = dict(zip(self._dev_names, zip((-i1).tolist(), (-i2).tolist())))
         vs = vq[self._sq] if len(self._sq) else np.zeros((0, 2))
         vt = vs[:, 0] - vs[:, 1]
         cc = np.isfinite(self._sup_cc)
         isup = np.where(cc, j, j - self._sg * vt)
-        over = tuple(n for n, i, lim, c in zip(self._sup_names, isup, self._sup_limit, cc)
-                     if not c and i > lim)
-
-        def dead(node):
-            return int(st.comp_of_block[self.parts.block_of_node[node]]) in floating
+        over = tuple(self._sup_names[i] for i in np.nonzero(~cc & (isup > self._sup_limit))[0])
 
         br = {}
-        for key, (_, _, gb, pairs, _) in self.bridges.items():
-            vv = vget([p for pr in pairs for p in pr])
-            cur = [gb * (vv[2 * i] - vv[2 * i + 1]) for i in range(len(pairs))]
-            br[key] = 0.0 if dead(pairs[0][0]) else float(max(abs(c) for c in cur))
+        if self.bridges:
+            bkeys = list(self.bridges)
+            flat = [(b[3][0][0], b[3][0][1], b[3][-1][0], b[3][-1][1], b[2])
+                    for b in self.bridges.values()]
+            bd = np.array(flat)
+            bn = bd[:, :4].astype(np.int64)
+            vv = vget(bn.ravel()).reshape(len(bkeys), 4)
+            cur = np.maximum(np.abs(vv[:, 0] - vv[:, 1]), np.abs(vv[:, 2] - vv[:, 3])) * bd[:, 4]
+            if floating:
+                cur[fl[st.comp_of_block[self.parts.block_of_node[bn[:, 0]]]]] = 0.0
+            br = dict(zip(bkeys, cur.tolist()))
         out = {}
-        for is_short, table in ((False, self.loads), (True, self.shorts)):
-            vd, idict = {}, {}
-            for key, a in table.items():
-                if len(a.nodes) == 2:
-                    vv = vget(a.nodes)
-                    u = vv[0] - vv[1]
-                else:
-                    nodes, row = seg_out[(is_short, key)]
-                    u = float(row @ vget(nodes))
-                if dead(a.nodes[0]):
-                    u = 0.0
-                vd[key] = abs(float(u))
-                idict[key] = abs(float(u)) * a.y_s
-            out[is_short] = (vd, idict)
-        scale = max([abs(x) for x in i1] + [abs(x) for x in i2] + [abs(x) for x in isup]
-                    + list(br.values()) + list(out[False][1].values())
-                    + list(out[True][1].values()) + [0.0])
+        for is_short, tid in ((False, 1), (True, 2)):
+            rows = self._rows[tid]
+            keys = list(rows)
+            m = len(keys)
+            if not m:
+                out[is_short] = ({}, {})
+                continue
+            data = np.array(list(rows.values()))
+            nodes = data[:, :4].astype(np.int64)
+            u = np.abs(np.sum(data[:, 4:8] * vget(nodes.ravel()).reshape(m, 4), axis=1))
+            if floating:
+                first = data[:, 9].astype(np.int64)
+                u[fl[st.comp_of_block[self.parts.block_of_node[first]]]] = 0.0
+            out[is_short] = (dict(zip(keys, u.tolist())),
+                             dict(zip(keys, (u * data[:, 8]).tolist())))
+        isup_l = isup.tolist()
+        scale = max(max(dev_vals, default=0.0), max(map(abs, isup_l), default=0.0),
+                    max(br.values(), default=0.0), max(out[False][1].values(), default=0.0),
+                    max(out[True][1].values(), default=0.0), 0.0)
         if method == "incremental":
             self._check_kcl(resid, scale, self._kcl_terms)
         mp = MappingProxyType
         return Solution(
             device_i_a=mp(dev_i), device_lead_i_a=mp(dev_lead),
-            supply_i_a=mp({n: float(i) for n, i in zip(self._sup_names, isup)}),
-            supply_v_v=mp({n: float(x) for n, x in zip(self._sup_names, vt)}),
+            supply_i_a=mp(dict(zip(self._sup_names, isup_l))),
+            supply_v_v=mp(dict(zip(self._sup_names, vt.tolist()))),
             bridge_i_a=mp(br), load_v_v=mp(out[False][0]), load_i_a=mp(out[False][1]),
             short_i_a=mp(out[True][1]), short_v_v=mp(out[True][0]),
             findings=tuple(findings), over_limit=over, kcl_residual_a=resid, method=method)

@@ -114,8 +114,8 @@ class PartTracker:
         self._cache[key] = st
         return st
 
-    def merge(self, st: Structure, joins: list[tuple[int, int]]):
-        """Join parts by the addition edges ``joins`` (node pairs).
+    def merge(self, st: Structure, joins):
+        """Join parts by the addition edges ``joins`` (node pairs, a list or an ``(m, 2)`` array).
 
         Returns
         -------
@@ -132,12 +132,17 @@ class PartTracker:
                 c = parent[c]
             return c
 
-        for u, v in joins:
-            cu = int(st.comp_of_block[self.block_of_node[u]])
-            cv = int(st.comp_of_block[self.block_of_node[v]])
-            ru, rv = find(cu), find(cv)
-            if ru != rv:
-                parent[max(ru, rv)] = min(ru, rv)
+        # only the joins between different components matter (vectorised filter,
+        # so the many loads that join the two rails of one part cost no Python work)
+        pairs = np.asarray(joins, dtype=np.int64).reshape(-1, 2)
+        if len(pairs):
+            cu = st.comp_of_block[self.block_of_node[pairs[:, 0]]]
+            cv = st.comp_of_block[self.block_of_node[pairs[:, 1]]]
+            cross = cu != cv
+            for a, b in set(zip(cu[cross].tolist(), cv[cross].tolist())):
+                ru, rv = find(a), find(b)
+                if ru != rv:
+                    parent[max(ru, rv)] = min(ru, rv)
         delta = st.anchor_delta
         groups: dict[int, list[int]] = {}
         for c in parent:

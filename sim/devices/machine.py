@@ -61,6 +61,10 @@ from sim.devices.thermal import ThermalReplica
 #: Transitions processed in one ``advance`` before the machine declares a loop.
 MAX_TRANSITIONS = 100_000
 
+#: ``next_deadline`` not known for the present state (it must be computed); a
+#: singleton, so that a copied or pickled machine keeps the meaning.
+_STALE = False
+
 
 @dataclass(frozen=True)
 class SwapSetting:
@@ -141,6 +145,7 @@ class ProtectionMachine:
         self._t_hold_end: Optional[float] = None
         self._hold_extended = False
         self._feed(t0_s)
+        self._nc = _STALE             # _next(), kept until the state it depends on changes
 
     # ------------------------------------------------------------ state
     @property
@@ -175,6 +180,7 @@ class ProtectionMachine:
     def observe(self, t_s: float, i_a: float) -> None:
         """The current through the output is ``i_a`` from ``t_s`` on."""
         self._check_time(t_s)
+        self._nc = _STALE
         t_s = max(t_s, self._t)
         self._i = float(abs(i_a))
         self.peak_a = max(self.peak_a, self._i)
@@ -195,7 +201,8 @@ class ProtectionMachine:
         self._v = v_v
         uv = self.undervoltage
         if uv is None:
-            return
+            return          # (the next transition does not depend on the time or voltage)
+        self._nc = _STALE
         if self._uv_open:
             if v_v >= uv.v_return_v:
                 if self._t_uv_return is None:
@@ -210,22 +217,35 @@ class ProtectionMachine:
                 self._t_uv_drop = None
 
     def next_deadline(self) -> Optional[float]:
-        """The instant of the next self-timed transition, or ``None``."""
-        c = self._next()
-        return None if c is None else max(c[0], self._t)
+        """The instant of the next self-timed transition, or ``None``.
+
+        The next transition (``_next``, which depends on the state but not on
+        the present time) is kept from one call to the next until an
+        ``observe``, ``observe_supply_v`` (with undervoltage), ``advance`` or
+        ``reset`` changes that state (the engine asks several times per event).
+        """
+        c = self._nc
+        if c is _STALE:
+            c = self._nc = self._next()
+        if c is None:
+            return None
+        t = self._t
+        return t if t > c[0] else c[0]      # max(c[0], t)
 
     def advance(self, t_s: float) -> list[DeviceEvent]:
         """Perform every transition due at or before ``t_s``; return their events."""
         if t_s < self._t - T_TOL_S:
             raise ValueError(f"{self.name}: advance({t_s!r}) is before the last time {self._t!r}")
+        self._nc = _STALE
         events: list[DeviceEvent] = []
         for _ in range(MAX_TRANSITIONS):
             c = self._next()
             if c is None or c[0] > t_s + T_TOL_S:
+                self._nc = c        # the next transition of the state it leaves
                 break
             tt = max(c[0], self._t)
             self._t = tt
-            getattr(self, "_on_" + c[2])(tt, events)
+            _TRANSITIONS[c[2]](self, tt, events)
             self._feed(tt)
         else:
             raise RuntimeError(f"{self.name}: more than {MAX_TRANSITIONS} transitions at one time")
@@ -238,6 +258,7 @@ class ProtectionMachine:
         A thermal lockout is not overridden (it ends at ``thermal_resume``).
         """
         self._check_time(t_s)
+        self._nc = _STALE
         t_s = max(t_s, self._t)
         self._t = t_s
         self._trip_open = False
@@ -316,35 +337,54 @@ class ProtectionMachine:
             self.sense_unit.update(t_s, sense_in)
 
     def _next(self):
-        c = []
-        if self._t_uv_drop is not None:
-            c.append((self._t_uv_drop, 0, "dropout"))
-        if self.replica is not None and not self._thermal_open:
-            d = self.replica.trip_deadline_s()
-            if d is not None:
-                c.append((d, 1, "thermal_trip"))
-        d = self.trip_unit.due_s()
+        """``(t, priority, kind)`` of the next transition (the earliest; at one
+        instant the lowest priority, the tie order of the module doc), or ``None``.
+
+        Candidates are visited in priority order and only a strictly earlier
+        one replaces the best, which is ``min`` over ``(t, priority)`` without
+        building the candidate list (this runs several times per event).
+        """
+        best_t = None
+        best = None
+        d = self._t_uv_drop
         if d is not None:
-            c.append((d, 2, "trip"))
-        if self._mode == "swapping":
-            c.append((self._t_swap_end, 3, "swapped"))
-        elif self._mode == "dead":
-            c.append((self._t_reclose, 4, "reclose"))
-        elif self._mode == "hold" and not self._hold_extended:
-            c.append((self._t_hold_end, 5, "hold_end"))
+            best_t, best = d, (0, "dropout")
+        rep = self.replica
+        if rep is not None and not self._thermal_open:
+            d = rep.trip_deadline_s()
+            if d is not None and (best_t is None or d < best_t):
+                best_t, best = d, (1, "thermal_trip")
+        d = self.trip_unit.timer.due_s()
+        if d is not None and (best_t is None or d < best_t):
+            best_t, best = d, (2, "trip")
+        mode = self._mode
+        if mode == "swapping":
+            d = self._t_swap_end
+            if best_t is None or d < best_t:
+                best_t, best = d, (3, "swapped")
+        elif mode == "dead":
+            d = self._t_reclose
+            if best_t is None or d < best_t:
+                best_t, best = d, (4, "reclose")
+        elif mode == "hold" and not self._hold_extended:
+            d = self._t_hold_end
+            if best_t is None or d < best_t:
+                best_t, best = d, (5, "hold_end")
         if self.sense_unit is not None:
-            d = self.sense_unit.due_s()
-            if d is not None:
-                c.append((d, 6, "swap_start"))
-        if self._t_restart is not None:
-            c.append((self._t_restart, 7, "restart"))
-        if self.replica is not None and self._thermal_open:
-            d = self.replica.resume_deadline_s()
-            if d is not None:
-                c.append((d, 8, "thermal_resume"))
-        if self._t_uv_return is not None:
-            c.append((self._t_uv_return, 9, "uv_return"))
-        return min(c) if c else None
+            d = self.sense_unit.timer.due_s()
+            if d is not None and (best_t is None or d < best_t):
+                best_t, best = d, (6, "swap_start")
+        d = self._t_restart
+        if d is not None and (best_t is None or d < best_t):
+            best_t, best = d, (7, "restart")
+        if rep is not None and self._thermal_open:
+            d = rep.resume_deadline_s()
+            if d is not None and (best_t is None or d < best_t):
+                best_t, best = d, (8, "thermal_resume")
+        d = self._t_uv_return
+        if d is not None and (best_t is None or d < best_t):
+            best_t, best = d, (9, "uv_return")
+        return None if best is None else (best_t, best[0], best[1])
 
     def _cancel_swap(self) -> None:
         self._mode = "armed"
@@ -432,3 +472,9 @@ class ProtectionMachine:
         self._t_uv_return = None
         self._uv_open = False
         events.append(self._event(t, "reclose", cause="undervoltage", v_v=self._v))
+
+
+#: Transition handlers by kind (``advance`` dispatches through this table).
+_TRANSITIONS = {k: getattr(ProtectionMachine, "_on_" + k) for k in (
+    "dropout", "thermal_trip", "trip", "swapped", "reclose", "hold_end", "swap_start",
+    "restart", "thermal_resume", "uv_return")}

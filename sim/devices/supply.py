@@ -36,6 +36,10 @@ from sim.devices.sensing import T_TOL_S
 
 _LIMIT_REL = 1e-9
 
+#: ``next_deadline`` not known for the present state (it must be computed); a
+#: singleton, so that a copied or pickled machine keeps the meaning.
+_STALE = False
+
 
 class SupplyDevice:
     """A supply's state machine (protocol as in :mod:`sim.devices.machine`).
@@ -64,6 +68,7 @@ class SupplyDevice:
         self._released = False                    # limiting, but the voltage says the load went
         self._t_limit_since: Optional[float] = None
         self._t_on: Optional[float] = None        # hiccup: back on
+        self._nd = _STALE                         # next_deadline(), until the state changes
 
     @property
     def closed(self) -> bool:
@@ -86,6 +91,7 @@ class SupplyDevice:
     def observe(self, t_s: float, i_a: float) -> None:
         """The load current is ``i_a`` from ``t_s`` on."""
         self._check_time(t_s)
+        self._nd = _STALE
         self._t = max(self._t, t_s)
         self._i = float(abs(i_a))
         # what it delivers: a demand above the limit is held at the limit (or switched off)
@@ -94,6 +100,7 @@ class SupplyDevice:
     def observe_supply_v(self, t_s: float, v_v: float) -> None:
         """The terminal voltage is ``v_v`` from ``t_s`` on (ends a constant-current limit)."""
         self._check_time(t_s)
+        self._nd = _STALE
         self._t = max(self._t, t_s)
         if self.limiting:
             v_knee = self.model.v_emf_v - self.i_limit_a * self.model.r_ohm
@@ -117,12 +124,22 @@ class SupplyDevice:
         return min(c) if c else None
 
     def next_deadline(self) -> Optional[float]:
-        c = self._next()
-        return None if c is None else max(c[0], self._t)
+        """The instant of the next transition, or ``None`` (kept until the state changes)."""
+        nd = self._nd
+        if nd is _STALE:
+            c = self._next()
+            if c is None:
+                nd = None
+            else:
+                t = self._t
+                nd = t if t > c[0] else c[0]      # max(c[0], t)
+            self._nd = nd
+        return nd
 
     def advance(self, t_s: float) -> list[DeviceEvent]:
         if t_s < self._t - T_TOL_S:
             raise ValueError(f"{self.name}: advance({t_s!r}) is before the last time {self._t!r}")
+        self._nd = _STALE
         events: list[DeviceEvent] = []
         for _ in range(1000):
             c = self._next()
@@ -160,6 +177,7 @@ class SupplyDevice:
     def reset(self, t_s: float) -> list[DeviceEvent]:
         """Operator reset: an off supply comes on at once."""
         self._check_time(t_s)
+        self._nd = _STALE
         self._t = max(self._t, t_s)
         events = [DeviceEvent(self._t, self.name, "reset", {})]
         if not self.on:

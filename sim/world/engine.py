@@ -12,7 +12,9 @@ swapping, a supply switching - is applied to the circuit at once (each
 ``set_*`` call is cheap) and marks the instant *dirty*; a fired device
 deadline marks its device *due*. The first such mark at an instant schedules
 one *settle* of that instant as a zero-delay simpy timeout, which runs after
-every event already queued for that instant. The settle then loops:
+every event already queued for that instant (a fired deadline with nothing
+else queued at its instant settles at once: that timeout would be the next
+event anyway). The settle then loops:
 
 1. if dirty: solve (``Circuit.update()``, incremental; a cache keyed by the
    whole circuit state - the XOR of 128-bit BLAKE2b digests of its items,
@@ -20,8 +22,9 @@ every event already queued for that instant. The settle then loops:
    before), then
    ``observe(t, i)`` on every device whose current changed (and
    ``observe_supply_v`` on the boosters of a supply whose voltage changed),
-   re-arming their deadlines; the episode tracker and the trains' power are
-   fed from the same solution;
+   then re-arming each of them once; the episode tracker and the trains'
+   power are fed from the same solution (a solve that returns the very
+   solution of the previous one tells the devices nothing);
 2. of the devices due now, the first in the tie-break order acts
    (``advance``); if its output changed the circuit is updated and the loop
    goes back to 1 before any other device acts.
@@ -95,6 +98,7 @@ from __future__ import annotations
 
 import hashlib
 import math
+import operator
 import time
 from typing import Optional
 
@@ -126,6 +130,17 @@ MAX_SETTLES_PER_INSTANT = 10_000
 
 #: Digests of state items kept before the memo is emptied.
 DIGESTS_MAX = 100_000
+
+#: Circuit-state keys of device and supply outputs (changes that follow a device
+#: transition); every other key is a topology change (bridge, load, short, open feeder).
+_OUTPUT_KEYS = frozenset({"d", "p"})
+_NO_CHANGES: dict = {}
+_NO_PATHS: dict = {}
+#: Output of a device not yet applied: closed, not swapped.
+_OUT_DEFAULT = (True, False)
+#: Stands for the settle event while a settle runs straight from a fired deadline.
+_SETTLING = object()
+_rank = operator.attrgetter("rank")
 
 
 class World:
@@ -159,6 +174,7 @@ class World:
         self._init_devices(devices, rng)
         self._cache: dict = {}
         self._state: dict = {}
+        self._state_digest: dict = {}         # key -> digest of its present item
         self._hash = 0
         self._digests: dict = {}
         self._dirty = False
@@ -175,12 +191,17 @@ class World:
         self._dark_s: dict[str, float] = {n: 0.0 for n in self.drivers}
         self._out: dict[str, tuple] = {}
         self.paths: dict = {}                 # circuit key -> ShortPath (existing paths)
+        self.joint_paths: dict = {}           # joint index -> (name, short threshold in A)
         self.n_solves = 0
         self.n_full_solves = 0
         self.t_circuit_s = 0.0
         self.n_cache_hits = 0
         self.n_settles = 0
         self.n_changes = 0
+        self.n_topology = 0                   # circuit changes that are not device outputs
+        self.n_transitions = 0                # device events reported by the machines
+        self._short_cache = None              # (solution, short-path currents) of the last solve
+        self.record = self.summary.record     # bound once: called for every event
         rated = {n: scn.device(n).thermal.i_rated_a for n in self.drivers
                  if self.kinds[n] != "supply" and getattr(scn.device(n), "thermal", None)}
         self.tracker = EpisodeTracker(self._would_trip, self._t_swap_of,
@@ -215,10 +236,22 @@ class World:
         self.drivers: dict[str, DeviceDriver] = {
             n: DeviceDriver(self, n, devices[n], order.index(n), kinds[n]) for n in names}
         self.kinds = kinds
+        # per supply, once: (name, driver, machine, its observe_supply_v or None, holds its limit)
+        self._supply_rows = tuple(
+            (n, self.drivers[n], self.drivers[n].dev,
+             getattr(self.drivers[n].dev, "observe_supply_v", None), n in self.cc_supplies)
+            for n in self.supply_names)
+        # per protective device, once: (name, driver)
+        self._protect_rows = tuple((n, self.drivers[n]) for n in self.protect_order)
         # boosters per supply (undervoltage), chains, thresholds, swap times
         self.boosters_of: dict[str, list[str]] = {s: [] for s in scn.supplies}
         for b, bo in scn.boosters.items():
             self.boosters_of.setdefault(bo.supply, []).append(b)
+        # per supply, once: its boosters as (driver, observe_supply_v or None)
+        self._booster_rows = tuple(
+            (sup, tuple((self.drivers[b], getattr(self.drivers[b].dev, "observe_supply_v", None))
+                        for b in bs))
+            for sup, bs in self.boosters_of.items())
         self._chains = {n: scn.upstream(n) for n in names}
         self._thr_dev: dict[str, float] = {}
         self._t_swap: dict[str, float] = {}
@@ -296,6 +329,15 @@ class World:
         st = self._out.get(dev)
         return True if st is None else bool(st[0])
 
+    def chain_closed(self, chain) -> bool:
+        """Whether every device of a feed chain conducts (``output_closed`` of each)."""
+        out = self._out
+        for dev in chain:
+            st = out.get(dev)
+            if st is not None and not st[0]:
+                return False
+        return True
+
     # ------------------------------------------------ circuit state (cheap)
     def _digest(self, item) -> int:
         """A 128-bit digest of one state item (``repr`` is exact for floats)."""
@@ -311,24 +353,30 @@ class World:
     def _put(self, key, value) -> None:
         """Record one item of the circuit state; the state key is the XOR of the
         items' 128-bit digests (Zobrist hashing), kept up to date in O(1)."""
-        old = self._state.get(key)
+        old = self._state_digest.pop(key, None)
         if old is not None:
-            self._hash ^= self._digest((key, old))
+            self._hash ^= old
         if value is None:
             self._state.pop(key, None)
         else:
             self._state[key] = value
-            self._hash ^= self._digest((key, value))
+            d = self._digest((key, value))
+            self._state_digest[key] = d
+            self._hash ^= d
         self.n_changes += 1
+        if key[0] not in _OUTPUT_KEYS:
+            self.n_topology += 1
         self._mark_dirty()
 
     def set_bridge(self, key, joint_index: int, rail: str, r_ohm: float, path: ShortPath) -> None:
         self.circuit.set_bridge(key, joint_index, rail, r_ohm)
         self.paths[key] = path
+        self._short_cache = None
         self._put(("b", key), (joint_index, rail, r_ohm))
 
     def clear_bridge(self, key) -> None:
         if self.paths.pop(key, None) is not None:
+            self._short_cache = None
             self.circuit.clear_bridge(key)
             self._put(("b", key), None)
 
@@ -347,6 +395,7 @@ class World:
     def apply_fault(self, index: int, fault, on: bool) -> None:
         """A scenario fault begins (``on``) or a timed short ends."""
         t = self.env.now
+        self._short_cache = None
         if fault.kind == "short":
             key = ("fault", index)
             where = f"{fault.section}@{fault.at_m:g} m"
@@ -386,20 +435,36 @@ class World:
         self._due.add(drv)
         self._schedule_settle()
 
+    def fire_due(self, drv: DeviceDriver) -> None:
+        """A device deadline fired (the last thing its simpy event does).
+
+        The settle of this instant must run after every event already queued
+        for it; when nothing else is queued at this instant the settle timeout
+        would be the very next event, so the settle runs at once instead (one
+        simpy event less per device transition, same order).
+        """
+        self._due.add(drv)
+        if self._settle_ev is None:
+            env = self.env
+            q = env._queue
+            if not q or q[0][0] > env._now:
+                self._settle(_SETTLING)
+            else:
+                self._schedule_settle()
+
     def _mark_dirty(self) -> None:
         self._dirty = True
         self._schedule_settle()
 
     def _schedule_settle(self) -> None:
         if self._settle_ev is None:
-            ev = self.env.timeout(0)
-            ev.callbacks.append(self._settle)
-            self._settle_ev = ev
+            env = self.env
+            self._settle_ev = env.call_at(env._now, self._settle)
 
     def _settle(self, _ev) -> None:
         self._settle_ev = _ev          # no second settle is scheduled while this one runs
         self.n_settles += 1
-        t = self.env.now
+        t = self.env._now
         if t == self._t_settle:
             self._n_same += 1
             if self._n_same > MAX_SETTLES_PER_INSTANT:
@@ -407,31 +472,39 @@ class World:
                                    f"{MAX_SETTLES_PER_INSTANT} settles at one instant")
         else:
             self._t_settle, self._n_same = t, 0
+        due = self._due
         for _ in range(MAX_PASSES):
             if self._dirty:
                 self._solve_and_observe(t)
                 continue
-            if not self._due:
+            if not due:
                 if self._episode_pass:
                     self._episode_pass = False
-                    for e in self.tracker.solution(t, self._short_currents(self._sol), {},
-                                                   close=True):
+                    sc = self._short_cache
+                    currents = (sc[1] if sc is not None and sc[0] is self._sol
+                                else self._short_currents(self._sol))
+                    for e in self.tracker.solution(t, currents, _NO_CHANGES, close=True):
                         self.record(e)
                 self._settle_ev = None
                 return
-            drv = min(self._due, key=lambda d: d.rank)
-            self._due.discard(drv)
-            if not drv.due(t):
+            if len(due) == 1:
+                drv = due.pop()
+            else:
+                drv = min(due, key=_rank)
+                due.discard(drv)
+            d = drv.armed_s
+            if d is None or round(d, T_DIGITS) > t:       # not drv.due(t)
                 drv.arm()
                 continue
-            d = drv.armed_s
             drv.armed_s = None
-            evs = drv.dev.advance(max(t, d))
+            evs = drv.dev.advance(d if d > t else t)      # max(t, d)
             inrush = False
             for e in evs:
                 self._device_event(e)
-                inrush = inrush or e.event in INRUSH_EVENTS or (
-                    e.event == "reclose" and e.data.get("cause") == "undervoltage")
+                if not inrush:
+                    k = e.event
+                    inrush = k in INRUSH_EVENTS or (
+                        k == "reclose" and e.data.get("cause") == "undervoltage")
             self._apply_output(drv, inrush)
             drv.arm()
         raise RuntimeError(f"no progress at t = {t!r} s after {MAX_PASSES} settle passes")
@@ -471,29 +544,30 @@ class World:
         order, after the devices below it.)
         """
         sol = self._solve()
+        cur = self._i
+        v_seen = self._v_seen
         for _ in range(2 * len(self.cc_supplies) + 2):
-            for name in self.supply_names:
-                drv = self.drivers[name]
-                m = drv.dev
+            sup_i = sol.supply_i_a
+            sup_v = sol.supply_v_v
+            for name, drv, m, observe_v, is_cc in self._supply_rows:
                 seen = False
-                i = sol.supply_i_a.get(name, 0.0)
-                if abs(i - self._i[name]) > I_REL_TOL * max(1.0, abs(i)):
-                    self._i[name] = i
+                i = sup_i.get(name, 0.0)
+                if abs(i - cur[name]) > I_REL_TOL * max(1.0, abs(i)):
+                    cur[name] = i
                     self._sup_changed[name] = i
                     m.observe(t, i)
                     seen = True
-                v = sol.supply_v_v.get(name)
-                v_old = self._v_seen.get(name)
-                if v is not None and (v_old is None
-                                      or abs(v - v_old) > V_REL_TOL * max(1.0, abs(v))):
-                    self._v_seen[name] = v
-                    fn = getattr(m, "observe_supply_v", None)
-                    if fn is not None:
-                        fn(t, v)
-                        seen = True
+                v = sup_v.get(name)
+                if v is not None:
+                    v_old = v_seen.get(name)
+                    if v_old is None or abs(v - v_old) > V_REL_TOL * max(1.0, abs(v)):
+                        v_seen[name] = v
+                        if observe_v is not None:
+                            observe_v(t, v)
+                            seen = True
                 if not seen:
                     continue
-                if name in self.cc_supplies:
+                if is_cc:
                     d = m.next_deadline()
                     # a transition the observation itself calls for (into or out of
                     # the limit), not a timer armed before that comes due now
@@ -519,51 +593,72 @@ class World:
                 if isinstance(f, Finding):
                     self.findings.append(f)
         changed: dict[str, float] = {}
-        dev_i = sol.device_i_a
-        drivers = self.drivers
-        for name in self.protect_order:
-            i = dev_i.get(name, 0.0)
-            old = self._i[name]
-            if abs(i - old) > I_REL_TOL * max(1.0, abs(i)):
-                self._i[name] = i
-                changed[name] = i
-        for name, i in changed.items():
-            drv = drivers[name]
-            drv.dev.observe(t, i)
-            drv.arm()
+        if sol is not prev:
+            # (the same solution as the last solve: every current and voltage was
+            # told then, within the tolerances, so there is nothing to tell)
+            dev_i = sol.device_i_a
+            cur = self._i
+            told = []                       # drivers to re-arm, each once, in order
+            for name, drv in self._protect_rows:
+                i = dev_i.get(name, 0.0)
+                di = i - cur[name]
+                if di == 0.0:
+                    continue
+                ai = i if i >= 0.0 else -i
+                # abs(i - old) > I_REL_TOL * max(1.0, abs(i)), without the calls
+                if (di if di >= 0.0 else -di) > I_REL_TOL * (ai if ai > 1.0 else 1.0):
+                    cur[name] = i
+                    changed[name] = i
+                    drv.dev.observe(t, i)
+                    told.append(drv)
+            # supply voltage -> boosters (undervoltage)
+            sv = sol.supply_v_v
+            v_sup = self._v_supply
+            for s, boosters in self._booster_rows:
+                v = sv.get(s)
+                if v is None:
+                    continue
+                v_old = v_sup.get(s)
+                if v_old is not None and abs(v - v_old) <= V_REL_TOL * max(1.0, abs(v)):
+                    continue
+                v_sup[s] = v
+                for drv, fn in boosters:
+                    if fn is not None:
+                        fn(t, v)
+                        told.append(drv)
+            # re-arm once after every observation of this solve (arming twice
+            # would only leave a cancelled timeout behind)
+            if len(told) == 1:
+                told[0].arm()
+            elif told:
+                for drv in dict.fromkeys(told):
+                    drv.arm()
         if self._sup_changed:
             changed.update(self._sup_changed)
-        # supply voltage -> boosters (undervoltage)
-        sv = sol.supply_v_v
-        for s, boosters in self.boosters_of.items():
-            v = sv.get(s)
-            if v is None:
-                continue
-            v_old = self._v_supply.get(s)
-            if v_old is not None and abs(v - v_old) <= V_REL_TOL * max(1.0, abs(v)):
-                continue
-            self._v_supply[s] = v
-            for b in boosters:
-                m = drivers[b].dev
-                fn = getattr(m, "observe_supply_v", None)
-                if fn is not None:
-                    fn(t, v)
-                    drivers[b].arm()
         # short paths -> episodes (closing waits for the settled instant)
         if self.paths or self.tracker.open_count:
-            for e in self.tracker.solution(t, self._short_currents(sol), changed, close=False):
+            currents = self._short_currents(sol)
+            self._short_cache = (sol, currents)
+            for e in self.tracker.solution(t, currents, changed, close=False):
                 self.record(e)
-            self._episode_pass = self.tracker.open_count > 0
+            # the closing call once the instant settles (same currents) can only
+            # close an open episode whose paths carry no short current now
+            self._episode_pass = self.tracker.pending_close
         elif changed:
-            self.tracker.solution(t, {}, changed, close=False)
+            self.tracker.solution(t, _NO_PATHS, changed, close=False)
         # trains' power
         if self.train_runs:
             todo = self._check_trains
             self._check_trains = set()
+            trains_on = self.trains_on
             for name in changed:
-                todo |= self.trains_on.get(name, set())
-            for tr in sorted(todo):
-                self.train_runs[tr].check_power(t, sol)
+                on = trains_on.get(name)
+                if on:
+                    todo |= on
+            if todo:
+                runs = self.train_runs
+                for tr in (sorted(todo) if len(todo) > 1 else todo):
+                    runs[tr].check_power(t, sol)
 
     def _short_currents(self, sol) -> dict:
         bi = sol.bridge_i_a
@@ -577,6 +672,7 @@ class World:
     # ------------------------------------------------------- device output
     def _device_event(self, e) -> None:
         ev = Event(e.t_s, e.device, e.event, e.data)
+        self.n_transitions += 1
         self.record(ev)
         self.tracker.device_event(ev)
         if e.event == "trip" and self._inrush_until.get(e.device, -1.0) >= e.t_s:
@@ -593,10 +689,10 @@ class World:
     def _apply_output(self, drv: DeviceDriver, inrush: bool = False) -> None:
         m = drv.dev
         name = drv.name
-        t = self.env.now
         if drv.kind == "supply":
             state = self._supply_state(m)
             if self._out.get(name, (True, math.inf)) != state:
+                t = self.env._now
                 on, i_lim = state
                 self.circuit.set_supply(name, on=on, i_limit_a=i_lim)
                 self._put(("p", name), state)
@@ -605,9 +701,10 @@ class World:
             return
         closed = bool(m.closed)
         swapped = bool(getattr(m, "swapped", False))
-        old = self._out.get(name, (True, False))
-        if (closed, swapped) == old:
+        old = self._out.get(name, _OUT_DEFAULT)
+        if closed == old[0] and swapped == old[1]:
             return
+        t = self.env._now
         self._out[name] = (closed, swapped)
         self.circuit.set_device(name, closed=closed, swapped=swapped)
         self._put(("d", name), (closed, swapped))
@@ -691,6 +788,7 @@ class World:
             summary=self.summary, t_end_s=t_end,
             t_margin_required_s=scn.t_margin_required_s,
             stats={"events": self.summary.n_events, "solves": self.n_solves,
+                   "transitions": self.n_transitions, "topology": self.n_topology,
                    "cache_hits": self.n_cache_hits, "full_solves": self.n_full_solves,
                    "settles": self.n_settles,
                    "changes": self.n_changes, "wall_s": wall_s,

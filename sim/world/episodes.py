@@ -57,7 +57,7 @@ Rules (documented in DEVELOPERS.md by the engine's docstring as well)
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from typing import Callable, Hashable, Mapping, Optional
 
 from sim.trace import Episode, Event
@@ -92,19 +92,25 @@ class ShortPath:
     threshold_a: float = I_FLOOR_A
 
 
-@dataclass
 class _Open:
-    ep: Episode
-    threshold_a: float
-    path_i_a: dict = field(default_factory=dict)          # device -> onset current
-    path_t_s: dict = field(default_factory=dict)          # device -> onset instant
-    would_s: dict = field(default_factory=dict)           # device -> would-trip instant
-    detect: dict = field(default_factory=dict)            # swapping device -> t_detect
-    interrupt: dict = field(default_factory=dict)         # swapping device -> first interrupt
-    trips: list = field(default_factory=list)             # (t, device)
-    trip_t: dict = field(default_factory=dict)            # device -> first trip instant
-    swaps: list = field(default_factory=list)             # (t, device)
-    active: set = field(default_factory=set)              # path keys carrying short current
+    """The bookkeeping of one open episode (a plain slotted class: one is made per
+    episode, and the tracker reads its fields in every solve)."""
+
+    __slots__ = ("ep", "threshold_a", "path_i_a", "path_t_s", "would_s", "detect",
+                 "interrupt", "trips", "trip_t", "swaps", "active")
+
+    def __init__(self, ep: Episode, threshold_a: float):
+        self.ep = ep
+        self.threshold_a = threshold_a
+        self.path_i_a: dict = {}          # device -> onset current
+        self.path_t_s: dict = {}          # device -> onset instant
+        self.would_s: dict = {}           # device -> would-trip instant
+        self.detect: dict = {}            # swapping device -> t_detect
+        self.interrupt: dict = {}         # swapping device -> first interrupt
+        self.trips: list = []             # (t, device)
+        self.trip_t: dict = {}            # device -> first trip instant
+        self.swaps: list = []             # (t, device)
+        self.active: set = set()          # path keys carrying short current
 
 
 class EpisodeTracker:
@@ -148,6 +154,9 @@ class EpisodeTracker:
         self._dev_rose_s: dict[str, float] = {}
         self._dev_rose_th_s: dict[str, float] = {}
         self._t_last = 0.0
+        #: Whether an open episode had no path carrying short current in the last
+        #: ``solution``: only then can a closing call with the same currents close one.
+        self.pending_close = False
 
     # ---------------------------------------------------------------- facts
     def solution(self, t_s: float, short_i_a: Mapping[ShortPath, float],
@@ -179,6 +188,7 @@ class EpisodeTracker:
                     self._dev_rose_th_s[d] = t_s
                 dev_i[d] = i
         if not self._open and not short_i_a:
+            self.pending_close = False
             return []
         # currents per group
         groups: dict[Hashable, list] = {}     # group -> [largest path, its i, sum, keys]
@@ -194,7 +204,7 @@ class EpisodeTracker:
                         g[0], g[1] = path, i
         events: list[Event] = []
         # close the groups that no longer carry short current
-        for gkey in ([g for g in self._open if g not in groups] if close else ()):
+        for gkey in ([g for g in self._open if g not in groups] if close and self._open else ()):
             op = self._open.pop(gkey)
             op.ep.end_s = t_s
             self._finish(op)
@@ -211,6 +221,8 @@ class EpisodeTracker:
             elif i_sum > op.ep.peak_a:
                 op.ep.peak_a = i_sum
             op.active = keys
+            if not changed:
+                continue
             half = 0.5 * op.threshold_a
             for d, i in changed.items():
                 if d not in op.path_i_a and i - before[d] > half:
@@ -218,6 +230,8 @@ class EpisodeTracker:
                     op.path_t_s[d] = t_s
                     if self._t_swap_s(d) is None:
                         op.would_s[d] = self._would_trip(d, i, t_s)
+        # every group carrying current is open now: the others can close
+        self.pending_close = len(self._open) > len(groups)
         return events
 
     def device_event(self, ev: Event) -> None:

@@ -49,6 +49,8 @@ T_TOL_S = 1e-9
 #: land on one instant and meet the tie-break, not an accident of rounding.
 T_DIGITS = 9
 
+_NORMAL = simpy.core.NORMAL
+
 
 class Env(simpy.Environment):
     """A simpy environment that also schedules at an absolute instant."""
@@ -64,6 +66,15 @@ class Env(simpy.Environment):
         ev._value = None
         heapq.heappush(self._queue, (max(t_s, self._now), simpy.core.NORMAL,
                                      next(self._eid), ev))
+        return ev
+
+    def call_at(self, t_s: float, callback):
+        """``timeout_at(t_s)`` with ``callback`` as its (first) callback."""
+        ev = simpy.Event(self)
+        ev._ok = True
+        ev._value = None
+        ev.callbacks.append(callback)
+        heapq.heappush(self._queue, (max(t_s, self._now), _NORMAL, next(self._eid), ev))
         return ev
 
 
@@ -104,18 +115,16 @@ class DeviceDriver:
             return
         env = self.world.env
         t_fire = round(d, T_DIGITS)
-        if t_fire <= env.now:
+        if t_fire <= env._now:
             self.world.mark_due(self)
             return
-        ev = env.timeout_at(t_fire)
-        ev.callbacks.append(self._fire)
-        self._ev = ev
+        self._ev = env.call_at(t_fire, self._fire)
 
     def _fire(self, ev) -> None:
         if ev is not self._ev:
             return  # cancelled: a newer deadline was armed since
         self._ev = None
-        self.world.mark_due(self)
+        self.world.fire_due(self)
 
     def due(self, t_s: float) -> bool:
         """Whether its armed deadline is at (or before) the instant ``t_s``."""
@@ -216,13 +225,17 @@ class TrainRun:
         from sim.world.episodes import ShortPath
 
         w = self.world
-        j = w.scn.track.joints[b.joint_index] if b.joint_index < len(w.scn.track.joints) \
-            else None
-        if j is None or j.index != b.joint_index:
-            j = next(x for x in w.scn.track.joints if x.index == b.joint_index)
-        chains = [w.layout.device_chain(e.section) for e in j.ends]
-        return ShortPath(self._key(b), ("train", self.name), "gap", j.name, self.name,
-                         w.path_threshold_a(chains))
+        # the joint's name and threshold depend on the layout only: found once per joint
+        known = w.joint_paths.get(b.joint_index)
+        if known is None:
+            j = w.scn.track.joints[b.joint_index] if b.joint_index < len(w.scn.track.joints) \
+                else None
+            if j is None or j.index != b.joint_index:
+                j = next(x for x in w.scn.track.joints if x.index == b.joint_index)
+            chains = [w.layout.device_chain(e.section) for e in j.ends]
+            known = w.joint_paths[b.joint_index] = (j.name, w.path_threshold_a(chains))
+        return ShortPath(self._key(b), ("train", self.name), "gap", known[0], self.name,
+                         known[1])
 
     # ----------------------------------------------------------- start
     def start(self) -> None:
@@ -313,10 +326,10 @@ class TrainRun:
             return
         w = self.world
         ok = False
+        load_v = sol.load_v_v
         for key, (section, chain) in self.loads.items():
-            v = sol.load_v_v.get(key, 0.0)
-            closed = all(w.output_closed(d) for d in chain)
-            if closed and abs(v) >= 0.5 * self.v_nominal_v:
+            v = load_v.get(key, 0.0)
+            if abs(v) >= 0.5 * self.v_nominal_v and w.chain_closed(chain):
                 ok = True
                 break
         m = self.motion

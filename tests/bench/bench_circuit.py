@@ -13,6 +13,9 @@ each, two boosters on one supply, gapped on both rails between districts).
    crossings of the same gap would use them.
 2. The fault map of a 500-section layout: seconds, and its ratio to one full
    solve of the same network.
+3. The update cost on a 500-section layout with 0, 10, 100 and 300 active
+   loads (one load moved per update), as ratios to the 0-load update and to a
+   full solve of the same state.
 """
 from __future__ import annotations
 
@@ -93,3 +96,41 @@ def test_bench_fault_map_500_sections():
           f"{t_map:.2f} s; one full solve {t_solve * 1e3:.2f} ms; ratio map/solve "
           f"{t_map / t_solve:.0f}")
     assert len(fm.rows) >= len(fm.points)
+
+
+def test_bench_update_cost_with_many_active_loads():
+    # 500 sections, 50 boosters on 10 supplies; n loads (30 ohm each, a train's
+    # draw) at random places; one change = one load moved to a new random place,
+    # then update(). Ratios to the 0-load change and to one full solve.
+    import numpy as np
+
+    scn = ladder(500, length=5.0, boosters=50, supplies=10)
+    c = build_circuit(scn, grid_m=1.0)
+    names = list(scn.track.sections)
+    rng = np.random.default_rng(11)
+    rows = {}
+    for n_loads in (0, 10, 100, 300):
+        for key in list(c.loads):
+            c.clear_load(key)
+        for i in range(n_loads):
+            c.set_load(("ld", i), names[int(rng.integers(len(names)))],
+                       float(rng.uniform(0.0, 5.0)), 30.0)
+        c.update()
+
+        def change():
+            if n_loads:
+                c.set_load(("ld", int(rng.integers(n_loads))), names[int(rng.integers(len(names)))],
+                           float(rng.uniform(0.0, 5.0)), 30.0)
+            return c.update()
+
+        assert len(change().load_i_a) == n_loads
+        t_upd = _per_call_s(change)
+        t_full = _per_call_s(c.solve)
+        rows[n_loads] = (t_upd, t_full)
+    t0 = rows[0][0]
+    print(f"\nupdate cost, 500 sections ({c.n_nodes} nodes), one load moved per update:")
+    for n_loads, (t_upd, t_full) in rows.items():
+        print(f"  {n_loads:3d} active loads: update {t_upd * 1e3:8.3f} ms, full solve "
+              f"{t_full * 1e3:8.3f} ms; ratio to 0 loads {t_upd / t0:7.1f}, "
+              f"ratio update/full {t_upd / t_full:.3f}")
+    print(f"  re-factorings (folds) {c.rebases}, parts factored {c.parts_factored}")
