@@ -378,12 +378,15 @@ class _Checker:
                     self.resolve(path + ("consist", i), m.group("name"), ("vehicle",))
             start = t.get("start")
             if isinstance(start, dict):
-                sec = secs.get(start.get("section"))
-                at = start.get("at")
-                if isinstance(sec, dict) and _ok(sec.get("length"), at) and at > sec["length"]:
-                    self.problem(path + ("start", "at"), f"at {at:g} m is beyond the length "
-                                                         f"of section '{start['section']}' "
-                                                         f"({sec['length']:g} m)")
+                self.within_section(path + ("start", "at"), secs, start)
+
+    def within_section(self, path: tuple, secs: dict, place: dict) -> None:
+        """A place ``{section, at}`` must lie within its section's length."""
+        sec = secs.get(place.get("section"))
+        at = place.get("at")
+        if isinstance(sec, dict) and _ok(sec.get("length"), at) and at > sec["length"]:
+            self.problem(path, f"at {at:g} m is beyond the length of section "
+                               f"'{place['section']}' ({sec['length']:g} m)")
 
     # faults -------------------------------------------------------------
     def fault_rules(self) -> None:
@@ -401,12 +404,7 @@ class _Checker:
                                              f"(duration {duration:g} s)")
             short, opened = f.get("short"), f.get("open")
             if isinstance(short, dict):
-                sec = secs.get(short.get("section"))
-                at = short.get("at")
-                if isinstance(sec, dict) and _ok(sec.get("length"), at) and at > sec["length"]:
-                    self.problem(path + ("short", "at"), f"at {at:g} m is beyond the length "
-                                                         f"of section '{short['section']}' "
-                                                         f"({sec['length']:g} m)")
+                self.within_section(path + ("short", "at"), secs, short)
             if isinstance(opened, dict):
                 name, k = opened.get("section"), opened.get("feeder")
                 fds = self.feeders.get(name) if isinstance(name, str) else None

@@ -71,3 +71,14 @@ def test_schema_is_json():
     assert p.returncode == 0
     schema = json.loads(p.stdout)
     assert schema["$schema"].endswith("2020-12/schema")
+
+
+def test_check_reports_the_full_scale_rule_once():
+    # the coordination scenario has a sensing full scale below a trip threshold: the static
+    # check (RF-COORD-007) and the fault map (RF-FAULT-004) both see it; `check` says it once
+    from sim.cli import check_result
+
+    res = check_result(str(ROOT / "tests" / "scenarios" / "checks" / "coordination-race.yaml"))
+    codes = [f["code"] for f in res["findings"]]
+    assert "RF-COORD-007" in codes
+    assert "RF-FAULT-004" not in codes

@@ -55,7 +55,7 @@ from sim.model import Restart, Sense, Thermal, Trip
 from sim.devices.events import DeviceEvent
 from sim.devices.overcurrent import TripUnit
 from sim.devices.restart import RestartState
-from sim.devices.sensing import T_TOL_S
+from sim.devices.sensing import T_TOL_S, check_observation_time
 from sim.devices.thermal import ThermalReplica
 
 #: Transitions processed in one ``advance`` before the machine declares a loop.
@@ -314,12 +314,7 @@ class ProtectionMachine:
         return m
 
     def _check_time(self, t_s: float) -> None:
-        if t_s < self._t - T_TOL_S:
-            raise ValueError(f"{self.name}: time {t_s!r} is before the last time {self._t!r}")
-        nd = self.next_deadline()
-        if nd is not None and t_s > nd + T_TOL_S:
-            raise ValueError(f"{self.name}: observation at {t_s!r} s is past its deadline "
-                             f"{nd!r} s; advance({nd!r}) first")
+        check_observation_time(self.name, self._t, t_s, self.next_deadline())
 
     def _feed(self, t_s: float) -> None:
         """Give each detector the current it may see in the present state."""

@@ -47,6 +47,20 @@ def ceil_tol(x: float, rel: float = REL_TOL) -> int:
     return int(math.ceil(x))
 
 
+def check_observation_time(name: str, t_last_s: float, t_s: float,
+                           deadline_s: Optional[float]) -> None:
+    """Refuse an input that goes back in time or lands past a pending deadline.
+
+    The device protocol (:mod:`sim.devices.machine`) requires the engine to
+    ``advance`` a device to its deadline before observing anything later.
+    """
+    if t_s < t_last_s - T_TOL_S:
+        raise ValueError(f"{name}: time {t_s!r} is before the last time {t_last_s!r}")
+    if deadline_s is not None and t_s > deadline_s + T_TOL_S:
+        raise ValueError(f"{name}: observation at {t_s!r} s is past its deadline "
+                         f"{deadline_s!r} s; advance({deadline_s!r}) first")
+
+
 def reading_a(i_a: float, full_scale_a: float = math.inf) -> float:
     """What the sensor reads of a current: ``min(|I|, full_scale_a)`` (ADC clamp)."""
     return min(abs(i_a), full_scale_a)

@@ -32,7 +32,7 @@ from typing import Optional
 
 from sim.model import Supply
 from sim.devices.events import DeviceEvent
-from sim.devices.sensing import T_TOL_S
+from sim.devices.sensing import T_TOL_S, check_observation_time
 
 _LIMIT_REL = 1e-9
 
@@ -203,9 +203,4 @@ class SupplyDevice:
         return self.t_limit_s
 
     def _check_time(self, t_s: float) -> None:
-        if t_s < self._t - T_TOL_S:
-            raise ValueError(f"{self.name}: time {t_s!r} is before the last time {self._t!r}")
-        nd = self.next_deadline()
-        if nd is not None and t_s > nd + T_TOL_S:
-            raise ValueError(f"{self.name}: observation at {t_s!r} s is past its deadline "
-                             f"{nd!r} s; advance({nd!r}) first")
+        check_observation_time(self.name, self._t, t_s, self.next_deadline())
