@@ -141,12 +141,12 @@ class EventSummary:
     def record(self, ev: Event) -> None:
         """Count ``ev`` (and keep it with ``keep_events``)."""
         self.n_events += 1
-        key = (ev.device, ev.event)
-        entry = self.entries.get(key)
+        t, device, event = ev[0], ev[1], ev[2]
+        entry = self.entries.get((device, event))
         if entry is None:
-            entry = self.entries[key] = SummaryEntry(0, ev.t_s, ev.t_s)
+            entry = self.entries[(device, event)] = SummaryEntry(0, t, t)
         entry.count += 1
-        entry.last_s = ev.t_s
+        entry.last_s = t
         if self.keep_events:
             self.events.append(ev)
 

@@ -77,7 +77,7 @@ def test_short_bridge_that_ends_is_clean_and_passes():
 
 def test_below_threshold_is_no_episode():
     tr = _tracker()
-    assert tr.solution(0.0, {GAP: 1.2}, {"booster-e": 1.2}) == []
+    assert not tr.solution(0.0, {GAP: 1.2}, {"booster-e": 1.2})
     assert tr.finish(1.0) == []
 
 

@@ -261,11 +261,13 @@ class Circuit:
         self.q_nodes = np.array(sorted(set(q)), dtype=np.int64)
         qpos = {int(v): i for i, v in enumerate(self.q_nodes)}
         self._dev_names = list(topo.devices)
+        self._dev_pos = {k: i for i, k in enumerate(self._dev_names)}
         devs = [topo.devices[k] for k in self._dev_names]
         self._dq = np.array([[qpos[d.o_l], qpos[d.o_r], qpos[d.a], qpos[d.b]] for d in devs],
                             dtype=np.int64).reshape(len(devs), 4)
         self._dg = np.array([d.g_lead_s for d in devs])
         self._sup_names = list(topo.supplies)
+        self._sup_pos = {k: i for i, k in enumerate(self._sup_names)}
         sups = [topo.supplies[k] for k in self._sup_names]
         self._sq = np.array([[qpos[s.p], qpos[s.n]] for s in sups], dtype=np.int64).reshape(len(sups), 2)
         self._sg = np.array([1.0 / s.r_ohm for s in sups])
@@ -324,7 +326,7 @@ class Circuit:
     def set_device(self, name: str, closed: Optional[bool] = None,
                    swapped: Optional[bool] = None) -> None:
         """Open/close a device output, or swap (exchange) its two output leads."""
-        i = self._dev_names.index(name)
+        i = self._dev_pos[name]
         if closed is not None:
             self._closed[i] = bool(closed)
         if swapped is not None:
@@ -334,7 +336,7 @@ class Circuit:
                    i_limit_a: Optional[float] = None) -> None:
         """Switch a supply, set its EMF, or put it in (finite ``i_limit_a``) or out of
         (``math.inf``) constant-current mode."""
-        i = self._sup_names.index(name)
+        i = self._sup_pos[name]
         if on is not None:
             self._sup_on[i] = bool(on)
         if v_emf_v is not None:
@@ -407,10 +409,10 @@ class Circuit:
         extra_u, extra_v = [], []
         for idx, elem in enumerate(self._sw_elem):
             kind, name = elem
-            if kind == "sup" and self._sup_names.index(name) in cc:
+            if kind == "sup" and self._sup_pos[name] in cc:
                 mask[idx] = False
             elif kind == "dev":
-                i = self._dev_names.index(name)
+                i = self._dev_pos[name]
                 if i in open_d or i in swap_d:
                     mask[idx] = False
             elif kind == "feed" and name in self.feeders_open:

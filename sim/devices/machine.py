@@ -48,6 +48,7 @@ from __future__ import annotations
 
 import copy
 import math
+from types import MappingProxyType
 from dataclasses import dataclass
 from typing import Optional
 
@@ -64,6 +65,10 @@ MAX_TRANSITIONS = 100_000
 #: ``next_deadline`` not known for the present state (it must be computed); a
 #: singleton, so that a copied or pickled machine keeps the meaning.
 _STALE = False
+#: ``DeviceEvent(t, device, event, data)`` without the named tuple's keyword handling.
+_new_event = tuple.__new__
+#: The data of an event that carries none (shared, read-only).
+_NO_DATA = MappingProxyType({})
 
 
 @dataclass(frozen=True)
@@ -144,15 +149,18 @@ class ProtectionMachine:
         self._t_reclose: Optional[float] = None
         self._t_hold_end: Optional[float] = None
         self._hold_extended = False
+        self._timer = self.trip_unit.timer     # (the trip unit's detector, used on every feed)
+        self._fs_a = self.trip_unit.full_scale_a
+        self._refresh_closed()
         self._feed(t0_s)
         self._nc = _STALE             # _next(), kept until the state it depends on changes
 
     # ------------------------------------------------------------ state
-    @property
-    def closed(self) -> bool:
-        """Whether the output conducts."""
-        return not (self._trip_open or self._thermal_open or self._uv_open
-                    or self._mode == "dead")
+    def _refresh_closed(self) -> None:
+        """``closed``: whether the output conducts (a plain attribute, read on every
+        event; refreshed after every transition and reset, the only changes of it)."""
+        self.closed = not (self._trip_open or self._thermal_open or self._uv_open
+                           or self._mode == "dead")
 
     @property
     def given_up(self) -> bool:
@@ -173,21 +181,29 @@ class ProtectionMachine:
         """Time of the last observation or transition."""
         return self._t
 
-    def _event(self, t_s: float, event: str, **data) -> DeviceEvent:
-        return DeviceEvent(t_s, self.name, event, data)
+    def _event(self, t_s: float, event: str, data=_NO_DATA) -> DeviceEvent:
+        return _new_event(DeviceEvent, (t_s, self.name, event, data))
 
     # -------------------------------------------------------- protocol
     def observe(self, t_s: float, i_a: float) -> None:
         """The current through the output is ``i_a`` from ``t_s`` on."""
-        self._check_time(t_s)
+        t = self._t
+        c = self._nc
+        if c is _STALE:
+            c = self._nc = self._next()
+        if t_s < t - T_TOL_S or (c is not None and t_s > (c[0] if c[0] > t else t) + T_TOL_S):
+            self._check_time(t_s)                 # raises, with the message
         self._nc = _STALE
-        t_s = max(t_s, self._t)
-        self._i = float(abs(i_a))
-        self.peak_a = max(self.peak_a, self._i)
+        if t_s < t:
+            t_s = t
+        i = i_a if i_a >= 0.0 else -i_a
+        self._i = i
+        if i > self.peak_a:
+            self.peak_a = i
         if self.replica is not None:
-            self.replica.update(t_s, self._i)
+            self.replica.update(t_s, i)
         if (self._mode == "hold" and self._hold_extended
-                and not self.trip_unit.reads_over(self._i)):
+                and not self.trip_unit.reads_over(i)):
             self._mode = "armed"
             self._hold_extended = False
         self._t = t_s
@@ -195,26 +211,38 @@ class ProtectionMachine:
 
     def observe_supply_v(self, t_s: float, v_v: float) -> None:
         """The supply voltage at the device is ``v_v`` from ``t_s`` on (undervoltage)."""
-        self._check_time(t_s)
-        t_s = max(t_s, self._t)
-        self._t = t_s
+        t = self._t
+        c = self._nc
+        if c is _STALE:
+            c = self._nc = self._next()
+        if t_s < t - T_TOL_S or (c is not None and t_s > (c[0] if c[0] > t else t) + T_TOL_S):
+            self._check_time(t_s)                 # raises, with the message
+        if t_s > t:
+            self._t = t_s
+        else:
+            t_s = t
         self._v = v_v
         uv = self.undervoltage
         if uv is None:
             return          # (the next transition does not depend on the time or voltage)
-        self._nc = _STALE
+        # only the undervoltage instants depend on the voltage: the kept next
+        # transition stays valid unless one of them changes
         if self._uv_open:
             if v_v >= uv.v_return_v:
                 if self._t_uv_return is None:
                     self._t_uv_return = t_s + uv.t_return_s
-            else:
+                    self._nc = _STALE
+            elif self._t_uv_return is not None:
                 self._t_uv_return = None
+                self._nc = _STALE
         else:
             if v_v < uv.v_dropout_v:
                 if self._t_uv_drop is None:
                     self._t_uv_drop = t_s + uv.t_drop_s
-            else:
+                    self._nc = _STALE
+            elif self._t_uv_drop is not None:
                 self._t_uv_drop = None
+                self._nc = _STALE
 
     def next_deadline(self) -> Optional[float]:
         """The instant of the next self-timed transition, or ``None``.
@@ -246,6 +274,7 @@ class ProtectionMachine:
             tt = max(c[0], self._t)
             self._t = tt
             _TRANSITIONS[c[2]](self, tt, events)
+            self._refresh_closed()
             self._feed(tt)
         else:
             raise RuntimeError(f"{self.name}: more than {MAX_TRANSITIONS} transitions at one time")
@@ -266,6 +295,7 @@ class ProtectionMachine:
         self.restart.reset()
         self._cancel_swap()
         self.trip_unit.clear()
+        self._refresh_closed()
         self._feed(t_s)
         return [self._event(t_s, "reset")]
 
@@ -308,6 +338,7 @@ class ProtectionMachine:
                 u = copy.copy(unit)
                 u.timer = copy.copy(unit.timer)
                 setattr(m, attr, u)
+        m._timer = m.trip_unit.timer
         if self.replica is not None:
             m.replica = copy.copy(self.replica)
         m.restart = copy.copy(self.restart)
@@ -317,19 +348,23 @@ class ProtectionMachine:
         check_observation_time(self.name, self._t, t_s, self.next_deadline())
 
     def _feed(self, t_s: float) -> None:
-        """Give each detector the current it may see in the present state."""
+        """Give each detector the current it may see in the present state
+        (the trip unit's reading is ``min(|I|, full scale)``, its ADC clamp)."""
         i = self._i if self.closed else 0.0
+        fs = self._fs_a
+        if self.sense_unit is None or self._mode == "hold":
+            self._timer.update(t_s, i if i < fs else fs)
+            if self.sense_unit is not None:
+                self.sense_unit.update(t_s, 0.0)
+            return
         trip_in = 0.0
         sense_in = 0.0
-        if self.sense_unit is None or self._mode == "hold":
-            trip_in = i
-        elif self._mode == "armed":
+        if self._mode == "armed":
             sense_in = i
             if not self.sense_unit.reads_over(i):
                 trip_in = i
-        self.trip_unit.update(t_s, trip_in)
-        if self.sense_unit is not None:
-            self.sense_unit.update(t_s, sense_in)
+        self._timer.update(t_s, trip_in if trip_in < fs else fs)
+        self.sense_unit.update(t_s, sense_in)
 
     def _next(self):
         """``(t, priority, kind)`` of the next transition (the earliest; at one
@@ -349,7 +384,7 @@ class ProtectionMachine:
             d = rep.trip_deadline_s()
             if d is not None and (best_t is None or d < best_t):
                 best_t, best = d, (1, "thermal_trip")
-        d = self.trip_unit.timer.due_s()
+        d = self._timer.due_s()
         if d is not None and (best_t is None or d < best_t):
             best_t, best = d, (2, "trip")
         mode = self._mode
@@ -396,7 +431,7 @@ class ProtectionMachine:
         self._uv_open = True
         self._cancel_swap()
         self.trip_unit.clear()
-        events.append(self._event(t, "dropout", v_v=self._v))
+        events.append(self._event(t, "dropout", {"v_v": self._v}))
 
     def _on_thermal_trip(self, t, events):
         self.replica.update(t, self._i)
@@ -404,7 +439,7 @@ class ProtectionMachine:
         self._thermal_open = True
         self._cancel_swap()
         self.trip_unit.clear()
-        events.append(self._event(t, "thermal_trip", theta=self.replica.theta, i_a=self._i))
+        events.append(self._event(t, "thermal_trip", {"theta": self.replica.theta, "i_a": self._i}))
 
     def _on_trip(self, t, events):
         self.trips += 1
@@ -413,9 +448,9 @@ class ProtectionMachine:
         self.trip_unit.clear()
         wait = self.restart.on_trip(t)
         self._t_restart = None if wait is None else t + wait
-        events.append(self._event(t, "trip", i_a=self._i, restart_in_s=wait))
+        events.append(self._event(t, "trip", {"i_a": self._i, "restart_in_s": wait}))
         if wait is None and self.restart.given_up:
-            events.append(self._event(t, "give_up", tries=self.restart.tries_used))
+            events.append(self._event(t, "give_up", {"tries": self.restart.tries_used}))
 
     def _on_swapped(self, t, events):
         sw = self.swap
@@ -429,7 +464,7 @@ class ProtectionMachine:
             self._t_reclose = t + sw.t_dead_s
         else:
             self._mode = "hold"
-        events.append(self._event(t, "swapped", swapped=self.swapped, swaps=self.swaps))
+        events.append(self._event(t, "swapped", {"swapped": self.swapped, "swaps": self.swaps}))
 
     def _on_reclose(self, t, events):
         self._t_reclose = None
@@ -447,7 +482,7 @@ class ProtectionMachine:
         self._mode = "swapping"
         self._t_swap_end = t + self.swap.t_swap_s
         self.sense_unit.clear()
-        events.append(self._event(t, "swap_start", i_a=self._i))
+        events.append(self._event(t, "swap_start", {"i_a": self._i}))
 
     def _on_restart(self, t, events):
         self._t_restart = None
@@ -455,18 +490,18 @@ class ProtectionMachine:
         self.restarts += 1
         n = self.restart.on_restart(t)
         self._cancel_swap()
-        events.append(self._event(t, "restart", attempt=n))
+        events.append(self._event(t, "restart", {"attempt": n}))
 
     def _on_thermal_resume(self, t, events):
         self.replica.update(t, self._i)
         self.replica.set_theta(self.replica.setting.resume_at)
         self._thermal_open = False
-        events.append(self._event(t, "thermal_resume", theta=self.replica.theta))
+        events.append(self._event(t, "thermal_resume", {"theta": self.replica.theta}))
 
     def _on_uv_return(self, t, events):
         self._t_uv_return = None
         self._uv_open = False
-        events.append(self._event(t, "reclose", cause="undervoltage", v_v=self._v))
+        events.append(self._event(t, "reclose", {"cause": "undervoltage", "v_v": self._v}))
 
 
 #: Transition handlers by kind (``advance`` dispatches through this table).

@@ -73,6 +73,8 @@ class DefiniteTimer:
         """The trip instant if the reading stays as it is, or ``None``."""
         if not self.above or self.t_onset_s is None:
             return None
+        if self.period_s is None:
+            return self.t_onset_s + self.t_delay_s     # detect_time_s, continuous
         return detect_time_s(self.t_onset_s, self.t_delay_s, self.period_s, self.phase)
 
     def clear(self) -> None:

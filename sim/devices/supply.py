@@ -68,6 +68,9 @@ class SupplyDevice:
         self._released = False                    # limiting, but the voltage says the load went
         self._t_limit_since: Optional[float] = None
         self._t_on: Optional[float] = None        # hiccup: back on
+        self._cc = model.on_limit == "constant-current"
+        self._limits_first_b = self._cc or self.t_limit_s > 0.0
+        self._v_knee_v = model.v_emf_v - self.i_limit_a * model.r_ohm
         self._nd = _STALE                         # next_deadline(), until the state changes
 
     @property
@@ -86,42 +89,55 @@ class SupplyDevice:
         return self._i > self.i_limit_a
 
     def _limits_first(self) -> bool:
-        return self.model.on_limit == "constant-current" or self.t_limit_s > 0.0
+        return self._limits_first_b
+
+    def _check_fast(self, t_s: float) -> None:
+        """``_check_time`` without the calls when the time is in order."""
+        t = self._t
+        nd = self._nd
+        if nd is _STALE:
+            nd = self.next_deadline()
+        if t_s < t - T_TOL_S or (nd is not None and t_s > nd + T_TOL_S):
+            self._check_time(t_s)                 # raises, with the message
 
     def observe(self, t_s: float, i_a: float) -> None:
         """The load current is ``i_a`` from ``t_s`` on."""
-        self._check_time(t_s)
+        self._check_fast(t_s)
         self._nd = _STALE
-        self._t = max(self._t, t_s)
-        self._i = float(abs(i_a))
+        if t_s > self._t:
+            self._t = t_s
+        i = i_a if i_a >= 0.0 else -i_a
+        self._i = i
         # what it delivers: a demand above the limit is held at the limit (or switched off)
-        self.peak_a = max(self.peak_a, min(self._i, self.i_limit_a))
+        d = i if i < self.i_limit_a else self.i_limit_a
+        if d > self.peak_a:
+            self.peak_a = d
 
     def observe_supply_v(self, t_s: float, v_v: float) -> None:
         """The terminal voltage is ``v_v`` from ``t_s`` on (ends a constant-current limit)."""
-        self._check_time(t_s)
-        self._nd = _STALE
-        self._t = max(self._t, t_s)
+        self._check_fast(t_s)
+        if t_s > self._t:
+            self._t = t_s
+            self._nd = _STALE             # (a deadline "now" moves with the time)
         if self.limiting:
-            v_knee = self.model.v_emf_v - self.i_limit_a * self.model.r_ohm
-            self._released = v_v >= v_knee * (1.0 - _LIMIT_REL)
+            self._nd = _STALE
+            self._released = v_v >= self._v_knee_v * (1.0 - _LIMIT_REL)
 
     # ------------------------------------------------------------ protocol
     def _next(self):
-        """``(time, kind)`` of the next transition, or ``None``."""
-        c = []
+        """``(time, priority, kind)`` of the next transition, or ``None``."""
         if self.on:
             want = self._over()
-            if self._limits_first():
+            if self._limits_first_b:
                 if want != self.limiting:
-                    c.append((self._t, 0, "limit"))
-                elif self.limiting and self.model.on_limit != "constant-current":
-                    c.append((self._t_limit_since + self.t_limit_s, 1, "off"))
+                    return (self._t, 0, "limit")
+                if self.limiting and not self._cc:
+                    return (self._t_limit_since + self.t_limit_s, 1, "off")
             elif want:
-                c.append((self._t, 1, "off"))
+                return (self._t, 1, "off")
         elif self._t_on is not None:
-            c.append((self._t_on, 2, "on"))
-        return min(c) if c else None
+            return (self._t_on, 2, "on")
+        return None
 
     def next_deadline(self) -> Optional[float]:
         """The instant of the next transition, or ``None`` (kept until the state changes)."""

@@ -173,6 +173,8 @@ class World:
         rng = np.random.default_rng(scn.seed)
         self._init_devices(devices, rng)
         self._cache: dict = {}
+        self._short_by_key: dict = {}          # state key -> short-path currents of its solution
+        self._sol_key = None                  # state key of the last solve
         self._state: dict = {}
         self._state_digest: dict = {}         # key -> digest of its present item
         self._hash = 0
@@ -200,7 +202,6 @@ class World:
         self.n_changes = 0
         self.n_topology = 0                   # circuit changes that are not device outputs
         self.n_transitions = 0                # device events reported by the machines
-        self._short_cache = None              # (solution, short-path currents) of the last solve
         self.record = self.summary.record     # bound once: called for every event
         rated = {n: scn.device(n).thermal.i_rated_a for n in self.drivers
                  if self.kinds[n] != "supply" and getattr(scn.device(n), "thermal", None)}
@@ -253,6 +254,12 @@ class World:
                         for b in bs))
             for sup, bs in self.boosters_of.items())
         self._chains = {n: scn.upstream(n) for n in names}
+        # plain protection machines (a trip unit, no swap logic): they answer
+        # "when would it trip" from their own deadlines (see _would_trip)
+        self._plain = frozenset(
+            n for n in names if getattr(devices[n], "trip_unit", None) is not None
+            and getattr(devices[n], "swap", True) is None
+            and hasattr(devices[n], "replica"))
         self._thr_dev: dict[str, float] = {}
         self._t_swap: dict[str, float] = {}
         for n in names:
@@ -292,14 +299,14 @@ class World:
         answers through its ``trip_after_s`` (which simulates a copy).
         """
         m = self.drivers[dev].dev
-        unit = getattr(m, "trip_unit", None)
-        if unit is not None and getattr(m, "swap", True) is None and m.closed:
-            cands = [unit.due_s()]
-            rep = getattr(m, "replica", None)
+        if dev in self._plain and m.closed:
+            d = m.trip_unit.due_s()
+            rep = m.replica
             if rep is not None:
-                cands.append(rep.trip_deadline_s())
-            cands = [c for c in cands if c is not None]
-            return min(cands) if cands else None
+                d2 = rep.trip_deadline_s()
+                if d2 is not None and (d is None or d2 < d):
+                    d = d2
+            return d
         dt = m.trip_after_s(i_a, t_s)
         if dt is None or not math.isfinite(dt):
             return None
@@ -353,30 +360,36 @@ class World:
     def _put(self, key, value) -> None:
         """Record one item of the circuit state; the state key is the XOR of the
         items' 128-bit digests (Zobrist hashing), kept up to date in O(1)."""
-        old = self._state_digest.pop(key, None)
+        sd = self._state_digest
+        h = self._hash
+        old = sd.pop(key, None)
         if old is not None:
-            self._hash ^= old
+            h ^= old
         if value is None:
             self._state.pop(key, None)
         else:
             self._state[key] = value
-            d = self._digest((key, value))
-            self._state_digest[key] = d
-            self._hash ^= d
+            item = (key, value)
+            d = self._digests.get(item)
+            if d is None:
+                d = self._digest(item)
+            sd[key] = d
+            h ^= d
+        self._hash = h
         self.n_changes += 1
         if key[0] not in _OUTPUT_KEYS:
             self.n_topology += 1
-        self._mark_dirty()
+        self._dirty = True
+        if self._settle_ev is None:
+            self._schedule_settle()
 
     def set_bridge(self, key, joint_index: int, rail: str, r_ohm: float, path: ShortPath) -> None:
         self.circuit.set_bridge(key, joint_index, rail, r_ohm)
         self.paths[key] = path
-        self._short_cache = None
         self._put(("b", key), (joint_index, rail, r_ohm))
 
     def clear_bridge(self, key) -> None:
         if self.paths.pop(key, None) is not None:
-            self._short_cache = None
             self.circuit.clear_bridge(key)
             self._put(("b", key), None)
 
@@ -395,7 +408,6 @@ class World:
     def apply_fault(self, index: int, fault, on: bool) -> None:
         """A scenario fault begins (``on``) or a timed short ends."""
         t = self.env.now
-        self._short_cache = None
         if fault.kind == "short":
             key = ("fault", index)
             where = f"{fault.section}@{fault.at_m:g} m"
@@ -480,10 +492,7 @@ class World:
             if not due:
                 if self._episode_pass:
                     self._episode_pass = False
-                    sc = self._short_cache
-                    currents = (sc[1] if sc is not None and sc[0] is self._sol
-                                else self._short_currents(self._sol))
-                    for e in self.tracker.solution(t, currents, _NO_CHANGES, close=True):
+                    for e in self.tracker.close_settled(t):
                         self.record(e)
                 self._settle_ev = None
                 return
@@ -492,11 +501,12 @@ class World:
             else:
                 drv = min(due, key=_rank)
                 due.discard(drv)
-            d = drv.armed_s
-            if d is None or round(d, T_DIGITS) > t:       # not drv.due(t)
+            f = drv.fire_s
+            if f is None or f > t:                        # not drv.due(t)
                 drv.arm()
                 continue
-            drv.armed_s = None
+            d = drv.armed_s
+            drv.armed_s = drv.fire_s = None
             evs = drv.dev.advance(d if d > t else t)      # max(t, d)
             inrush = False
             for e in evs:
@@ -512,6 +522,7 @@ class World:
     def _solve(self):
         self.n_solves += 1
         key = self._hash
+        self._sol_key = key
         sol = self._cache.get(key)
         if sol is not None:
             self.n_cache_hits += 1
@@ -528,6 +539,7 @@ class World:
         self.t_circuit_s += time.perf_counter() - t0
         if len(self._cache) >= CACHE_MAX:
             self._cache.clear()
+            self._short_by_key.clear()
         self._cache[key] = sol
         return sol
 
@@ -554,6 +566,8 @@ class World:
                 i = sup_i.get(name, 0.0)
                 if abs(i - cur[name]) > I_REL_TOL * max(1.0, abs(i)):
                     cur[name] = i
+                    if self._sup_changed is _NO_CHANGES:
+                        self._sup_changed = {}
                     self._sup_changed[name] = i
                     m.observe(t, i)
                     seen = True
@@ -584,21 +598,21 @@ class World:
 
     def _solve_and_observe(self, t: float) -> None:
         self._dirty = False
-        self._sup_changed = {}
-        sol = self._solve_supplies(t) if self.supply_names else self._solve()
+        self._sup_changed = _NO_CHANGES
+        sol = self._solve_supplies(t) if self._supply_rows else self._solve()
         prev = self._sol
         self._sol = sol
         if prev is None:
             for f in getattr(sol, "findings", ()) or ():
                 if isinstance(f, Finding):
                     self.findings.append(f)
-        changed: dict[str, float] = {}
+        changed = _NO_CHANGES
         if sol is not prev:
             # (the same solution as the last solve: every current and voltage was
             # told then, within the tolerances, so there is nothing to tell)
             dev_i = sol.device_i_a
             cur = self._i
-            told = []                       # drivers to re-arm, each once, in order
+            told: dict = {}                 # drivers to re-arm, each once, in order
             for name, drv in self._protect_rows:
                 i = dev_i.get(name, 0.0)
                 di = i - cur[name]
@@ -608,9 +622,11 @@ class World:
                 # abs(i - old) > I_REL_TOL * max(1.0, abs(i)), without the calls
                 if (di if di >= 0.0 else -di) > I_REL_TOL * (ai if ai > 1.0 else 1.0):
                     cur[name] = i
+                    if changed is _NO_CHANGES:
+                        changed = {}
                     changed[name] = i
                     drv.dev.observe(t, i)
-                    told.append(drv)
+                    told[drv] = None
             # supply voltage -> boosters (undervoltage)
             sv = sol.supply_v_v
             v_sup = self._v_supply
@@ -619,26 +635,29 @@ class World:
                 if v is None:
                     continue
                 v_old = v_sup.get(s)
-                if v_old is not None and abs(v - v_old) <= V_REL_TOL * max(1.0, abs(v)):
-                    continue
+                if v_old is not None:
+                    dv = v - v_old
+                    av = v if v >= 0.0 else -v
+                    if (dv if dv >= 0.0 else -dv) <= V_REL_TOL * (av if av > 1.0 else 1.0):
+                        continue
                 v_sup[s] = v
                 for drv, fn in boosters:
                     if fn is not None:
                         fn(t, v)
-                        told.append(drv)
+                        told[drv] = None
             # re-arm once after every observation of this solve (arming twice
             # would only leave a cancelled timeout behind)
-            if len(told) == 1:
-                told[0].arm()
-            elif told:
-                for drv in dict.fromkeys(told):
-                    drv.arm()
-        if self._sup_changed:
-            changed.update(self._sup_changed)
+            for drv in told:
+                drv.arm()
+        sup_changed = self._sup_changed     # (the supplies' changes, from _solve_supplies)
+        if sup_changed:
+            if changed is _NO_CHANGES:
+                changed = sup_changed
+            else:
+                changed.update(sup_changed)
         # short paths -> episodes (closing waits for the settled instant)
         if self.paths or self.tracker.open_count:
             currents = self._short_currents(sol)
-            self._short_cache = (sol, currents)
             for e in self.tracker.solution(t, currents, changed, close=False):
                 self.record(e)
             # the closing call once the instant settles (same currents) can only
@@ -661,21 +680,38 @@ class World:
                     runs[tr].check_power(t, sol)
 
     def _short_currents(self, sol) -> dict:
+        """``{ShortPath: |I|}`` of every existing short path in ``sol``.
+
+        The paths that exist are part of the circuit state (their bridges and
+        fault shorts are items of it, and a path's record depends on its key
+        only), so the currents are kept per state key beside its cached
+        solution and made once per state.
+        """
+        key = self._sol_key
+        if sol is self._cache.get(key):
+            currents = self._short_by_key.get(key)
+            if currents is not None:
+                return currents
+        else:
+            key = None
         bi = sol.bridge_i_a
         si = sol.short_i_a
         currents = {}
-        for key, path in self.paths.items():
-            i = (si if path.kind == "fault" else bi).get(key, 0.0)
-            currents[path] = abs(i)
+        for k, path in self.paths.items():
+            i = (si if path.kind == "fault" else bi).get(k, 0.0)
+            currents[path] = i if i >= 0.0 else -i
+        if key is not None:
+            self._short_by_key[key] = currents
         return currents
 
     # ------------------------------------------------------- device output
     def _device_event(self, e) -> None:
-        ev = Event(e.t_s, e.device, e.event, e.data)
+        # (a device event is already the world's record, sim.trace.Event)
         self.n_transitions += 1
-        self.record(ev)
-        self.tracker.device_event(ev)
-        if e.event == "trip" and self._inrush_until.get(e.device, -1.0) >= e.t_s:
+        self.record(e)
+        self.tracker.device_event(e)
+        if (e.event == "trip" and self._inrush_until
+                and self._inrush_until.get(e.device, -1.0) >= e.t_s):
             self._inrush_until.pop(e.device, None)
             if not self.tracker.involved(e.device):
                 self.findings.append(Finding(
@@ -699,8 +735,8 @@ class World:
                 self._dark(name, t, on)
                 self._out[name] = state
             return
-        closed = bool(m.closed)
-        swapped = bool(getattr(m, "swapped", False))
+        closed = m.closed
+        swapped = m.swapped
         old = self._out.get(name, _OUT_DEFAULT)
         if closed == old[0] and swapped == old[1]:
             return

@@ -69,6 +69,9 @@ I_FLOOR_A = 0.5
 TRIPPING = frozenset({"trip", "thermal_trip", "off", "dropout"})
 #: Device events that mark a swapping device's detection of the short.
 DETECTING = frozenset({"detect", "swap_start"})
+#: What ``solution`` returns when it opened and closed nothing (shared, empty).
+_NO_EVENTS: tuple = ()
+_NO_GROUPS: dict = {}
 #: Device events that count as a swap in an episode.
 SWAPPING = frozenset({"swapped"})
 
@@ -157,6 +160,7 @@ class EpisodeTracker:
         #: Whether an open episode had no path carrying short current in the last
         #: ``solution``: only then can a closing call with the same currents close one.
         self.pending_close = False
+        self._last_groups: dict = _NO_GROUPS   # groups carrying short current, last solution
 
     # ---------------------------------------------------------------- facts
     def solution(self, t_s: float, short_i_a: Mapping[ShortPath, float],
@@ -169,29 +173,32 @@ class EpisodeTracker:
         between two devices acting at it) no episode is closed: a short that
         vanishes and comes back within one instant - two reversers swapping at
         the same instant - is one episode; the engine makes a last call with
-        ``close`` True once the instant has settled. Returns the ``short`` /
+        ``close`` True once the instant has settled. Returns (a sequence) the ``short`` /
         ``cleared`` events it opened or closed.
         """
         self._t_last = t_s
-        before: dict[str, float] = {}
         if changed:
+            before: dict[str, float] = {}
             dev_i = self._dev_i
             thr_d = self._dev_thr
             rated = self._dev_rated
             for d, i in changed.items():
                 b = before[d] = dev_i.get(d, 0.0)
-                thr = thr_d.get(d)
-                if thr is not None and i > thr >= b:
-                    self._dev_rose_s[d] = t_s
-                thr = rated.get(d)
-                if thr is not None and i > thr >= b:
-                    self._dev_rose_th_s[d] = t_s
+                if i > b:
+                    thr = thr_d.get(d)
+                    if thr is not None and i > thr >= b:
+                        self._dev_rose_s[d] = t_s
+                    thr = rated.get(d)
+                    if thr is not None and i > thr >= b:
+                        self._dev_rose_th_s[d] = t_s
                 dev_i[d] = i
-        if not self._open and not short_i_a:
+        opened = self._open
+        if not opened and not short_i_a:
             self.pending_close = False
-            return []
-        # currents per group
-        groups: dict[Hashable, list] = {}     # group -> [largest path, its i, sum, keys]
+            self._last_groups = _NO_GROUPS
+            return _NO_EVENTS
+        # currents per group: group -> [largest path, its i, sum, keys]
+        groups: dict[Hashable, list] = {}
         for path, i in short_i_a.items():
             if i > path.threshold_a:
                 g = groups.get(path.group)
@@ -202,20 +209,25 @@ class EpisodeTracker:
                     g[2] += i
                     if (i, str(path.where)) > (g[1], str(g[0].where)):
                         g[0], g[1] = path, i
+        self._last_groups = groups
+        if not groups and not (close and opened):
+            self.pending_close = bool(opened)
+            return _NO_EVENTS
         events: list[Event] = []
         # close the groups that no longer carry short current
-        for gkey in ([g for g in self._open if g not in groups] if close and self._open else ()):
-            op = self._open.pop(gkey)
-            op.ep.end_s = t_s
-            self._finish(op)
-            events.append(Event(t_s, op.ep.where, "cleared",
-                                {"kind": op.ep.kind, "outcome": op.ep.outcome}))
+        if close and opened:
+            for gkey in [g for g in opened if g not in groups]:
+                op = opened.pop(gkey)
+                op.ep.end_s = t_s
+                self._finish(op)
+                events.append(Event(t_s, op.ep.where, "cleared",
+                                    {"kind": op.ep.kind, "outcome": op.ep.outcome}))
         for gkey, (path, _i_max, i_sum, keys) in groups.items():
-            op = self._open.get(gkey)
+            op = opened.get(gkey)
             if op is None:
                 ep = Episode(start_s=t_s, kind=path.kind, where=path.where, train=path.train,
                              peak_a=i_sum)
-                op = self._open[gkey] = _Open(ep, path.threshold_a)
+                op = opened[gkey] = _Open(ep, path.threshold_a)
                 events.append(Event(t_s, path.where, "short",
                                     {"kind": path.kind, "i_a": i_sum, "train": path.train}))
             elif i_sum > op.ep.peak_a:
@@ -225,13 +237,30 @@ class EpisodeTracker:
                 continue
             half = 0.5 * op.threshold_a
             for d, i in changed.items():
-                if d not in op.path_i_a and i - before[d] > half:
+                if i - before[d] > half and d not in op.path_i_a:
                     op.path_i_a[d] = i
                     op.path_t_s[d] = t_s
                     if self._t_swap_s(d) is None:
                         op.would_s[d] = self._would_trip(d, i, t_s)
         # every group carrying current is open now: the others can close
-        self.pending_close = len(self._open) > len(groups)
+        self.pending_close = len(opened) > len(groups)
+        return events
+
+    def close_settled(self, t_s: float) -> list[Event]:
+        """The closing call once the instant has settled, with the currents of the
+        last :meth:`solution` (the same as ``solution(t_s, same currents, {},
+        close=True)``, without going over the paths again): close every open
+        episode whose group carried no short current in that solution."""
+        opened = self._open
+        groups = self._last_groups
+        events: list[Event] = []
+        for gkey in [g for g in opened if g not in groups]:
+            op = opened.pop(gkey)
+            op.ep.end_s = t_s
+            self._finish(op)
+            events.append(Event(t_s, op.ep.where, "cleared",
+                                {"kind": op.ep.kind, "outcome": op.ep.outcome}))
+        self.pending_close = False
         return events
 
     def device_event(self, ev: Event) -> None:

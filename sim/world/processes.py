@@ -52,6 +52,19 @@ T_DIGITS = 9
 _NORMAL = simpy.core.NORMAL
 
 
+class _Call:
+    """The lightest event simpy's ``Environment.step`` can process: a callback
+    list and a success flag (no value, no waiting processes). Made for every
+    armed deadline, so it carries nothing more."""
+
+    __slots__ = ("callbacks",)
+    _ok = True
+    _value = None
+
+    def __init__(self, callback):
+        self.callbacks = [callback]
+
+
 class Env(simpy.Environment):
     """A simpy environment that also schedules at an absolute instant."""
 
@@ -69,12 +82,14 @@ class Env(simpy.Environment):
         return ev
 
     def call_at(self, t_s: float, callback):
-        """``timeout_at(t_s)`` with ``callback`` as its (first) callback."""
-        ev = simpy.Event(self)
-        ev._ok = True
-        ev._value = None
-        ev.callbacks.append(callback)
-        heapq.heappush(self._queue, (max(t_s, self._now), _NORMAL, next(self._eid), ev))
+        """Call ``callback(event)`` at the absolute instant ``t_s`` (not before now).
+
+        The event is a bare callback carrier (``_Call``), not a full
+        :class:`simpy.Event`: nothing waits on it, only its callback runs.
+        """
+        ev = _Call(callback)
+        now = self._now
+        heapq.heappush(self._queue, (t_s if t_s > now else now, _NORMAL, next(self._eid), ev))
         return ev
 
 
@@ -93,7 +108,7 @@ class DeviceDriver:
         Its place in the tie-break order (lower acts first at one instant).
     """
 
-    __slots__ = ("world", "name", "dev", "rank", "armed_s", "_ev", "kind")
+    __slots__ = ("world", "name", "dev", "rank", "armed_s", "fire_s", "_ev", "kind")
 
     def __init__(self, world: "World", name: str, dev, rank: int, kind: str):
         self.world = world
@@ -102,6 +117,7 @@ class DeviceDriver:
         self.rank = rank
         self.kind = kind
         self.armed_s: Optional[float] = None
+        self.fire_s: Optional[float] = None    # armed_s rounded to T_DIGITS
         self._ev = None
 
     def arm(self) -> None:
@@ -112,9 +128,10 @@ class DeviceDriver:
         self.armed_s = d
         self._ev = None
         if d is None:
+            self.fire_s = None
             return
         env = self.world.env
-        t_fire = round(d, T_DIGITS)
+        t_fire = self.fire_s = round(d, T_DIGITS)
         if t_fire <= env._now:
             self.world.mark_due(self)
             return
@@ -128,8 +145,8 @@ class DeviceDriver:
 
     def due(self, t_s: float) -> bool:
         """Whether its armed deadline is at (or before) the instant ``t_s``."""
-        d = self.armed_s
-        return d is not None and round(d, T_DIGITS) <= t_s
+        d = self.fire_s
+        return d is not None and d <= t_s
 
 
 def train_process(world: "World", drv):
