@@ -141,10 +141,11 @@ class EventSummary:
     def record(self, ev: Event) -> None:
         """Count ``ev`` (and keep it with ``keep_events``)."""
         self.n_events += 1
-        t, device, event = ev[0], ev[1], ev[2]
-        entry = self.entries.get((device, event))
+        t, device, event, _ = ev
+        key = (device, event)
+        entry = self.entries.get(key)
         if entry is None:
-            entry = self.entries[(device, event)] = SummaryEntry(0, t, t)
+            entry = self.entries[key] = SummaryEntry(0, t, t)
         entry.count += 1
         entry.last_s = t
         if self.keep_events:

@@ -70,3 +70,31 @@ def drive(p, steps):
 @given(p=settings_st, steps=steps_st)
 def test_random_drives_keep_the_protocol(p, steps):
     assert drive(p, steps) == drive(p, steps)
+
+
+def test_every_event_kind_named_in_the_device_sources_is_in_the_contract():
+    # the machines make their events without a run-time check of the kind (they are
+    # made on every transition); every kind they can name is a literal in their
+    # source, so this reads all of them and holds them to EVENT_KINDS
+    import ast
+    from pathlib import Path
+
+    import sim.devices as pkg
+
+    named = set()
+    for path in Path(pkg.__file__).parent.glob("*.py"):
+        for node in ast.walk(ast.parse(path.read_text())):
+            if not isinstance(node, ast.Call):
+                continue
+            fn = node.func
+            name = fn.attr if isinstance(fn, ast.Attribute) else getattr(fn, "id", "")
+            if name == "_event" and len(node.args) >= 2:
+                kind = node.args[1]
+            elif name == "DeviceEvent" and len(node.args) >= 3:
+                kind = node.args[2]
+            else:
+                continue
+            assert isinstance(kind, ast.Constant), f"{path.name}:{node.lineno}: kind not a literal"
+            named.add(kind.value)
+    assert len(named) >= 12
+    assert named <= EVENT_KINDS, named - EVENT_KINDS

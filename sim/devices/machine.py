@@ -65,6 +65,11 @@ MAX_TRANSITIONS = 100_000
 #: ``next_deadline`` not known for the present state (it must be computed); a
 #: singleton, so that a copied or pickled machine keeps the meaning.
 _STALE = False
+#: ``(priority, kind)`` of each transition, in the tie order of the module doc.
+(_K_DROPOUT, _K_THERMAL_TRIP, _K_TRIP, _K_SWAPPED, _K_RECLOSE, _K_HOLD_END, _K_SWAP_START,
+ _K_RESTART, _K_THERMAL_RESUME, _K_UV_RETURN) = tuple(enumerate((
+    "dropout", "thermal_trip", "trip", "swapped", "reclose", "hold_end", "swap_start",
+    "restart", "thermal_resume", "uv_return")))
 #: ``DeviceEvent(t, device, event, data)`` without the named tuple's keyword handling.
 _new_event = tuple.__new__
 #: The data of an event that carries none (shared, read-only).
@@ -378,43 +383,43 @@ class ProtectionMachine:
         best = None
         d = self._t_uv_drop
         if d is not None:
-            best_t, best = d, (0, "dropout")
+            best_t, best = d, _K_DROPOUT
         rep = self.replica
         if rep is not None and not self._thermal_open:
             d = rep.trip_deadline_s()
             if d is not None and (best_t is None or d < best_t):
-                best_t, best = d, (1, "thermal_trip")
+                best_t, best = d, _K_THERMAL_TRIP
         d = self._timer.due_s()
         if d is not None and (best_t is None or d < best_t):
-            best_t, best = d, (2, "trip")
-        mode = self._mode
-        if mode == "swapping":
-            d = self._t_swap_end
-            if best_t is None or d < best_t:
-                best_t, best = d, (3, "swapped")
-        elif mode == "dead":
-            d = self._t_reclose
-            if best_t is None or d < best_t:
-                best_t, best = d, (4, "reclose")
-        elif mode == "hold" and not self._hold_extended:
-            d = self._t_hold_end
-            if best_t is None or d < best_t:
-                best_t, best = d, (5, "hold_end")
-        if self.sense_unit is not None:
+            best_t, best = d, _K_TRIP
+        if self.swap is not None:
+            mode = self._mode
+            if mode == "swapping":
+                d = self._t_swap_end
+                if best_t is None or d < best_t:
+                    best_t, best = d, _K_SWAPPED
+            elif mode == "dead":
+                d = self._t_reclose
+                if best_t is None or d < best_t:
+                    best_t, best = d, _K_RECLOSE
+            elif mode == "hold" and not self._hold_extended:
+                d = self._t_hold_end
+                if best_t is None or d < best_t:
+                    best_t, best = d, _K_HOLD_END
             d = self.sense_unit.timer.due_s()
             if d is not None and (best_t is None or d < best_t):
-                best_t, best = d, (6, "swap_start")
+                best_t, best = d, _K_SWAP_START
         d = self._t_restart
         if d is not None and (best_t is None or d < best_t):
-            best_t, best = d, (7, "restart")
+            best_t, best = d, _K_RESTART
         if rep is not None and self._thermal_open:
             d = rep.resume_deadline_s()
             if d is not None and (best_t is None or d < best_t):
-                best_t, best = d, (8, "thermal_resume")
+                best_t, best = d, _K_THERMAL_RESUME
         d = self._t_uv_return
         if d is not None and (best_t is None or d < best_t):
-            best_t, best = d, (9, "uv_return")
-        return None if best is None else (best_t, best[0], best[1])
+            best_t, best = d, _K_UV_RETURN
+        return None if best is None else (best_t,) + best
 
     def _cancel_swap(self) -> None:
         self._mode = "armed"

@@ -232,6 +232,8 @@ class World:
                             and (scn.supplies[n].on_limit == "constant-current"
                                  or getattr(scn.supplies[n], "t_limit_s", 0.0) > 0.0)}
         self._v_seen: dict[str, float] = {}
+        # passes of the supply loop of one solve (each limit may enter and leave)
+        self._n_supply_passes = 2 * len(self.cc_supplies) + 2
         self.protect_order = [n for n in order if kinds[n] != "supply"]
         self._sup_changed: dict = {}
         self.drivers: dict[str, DeviceDriver] = {
@@ -558,23 +560,33 @@ class World:
         sol = self._solve()
         cur = self._i
         v_seen = self._v_seen
-        for _ in range(2 * len(self.cc_supplies) + 2):
+        for _ in range(self._n_supply_passes):
             sup_i = sol.supply_i_a
             sup_v = sol.supply_v_v
             for name, drv, m, observe_v, is_cc in self._supply_rows:
                 seen = False
                 i = sup_i.get(name, 0.0)
-                if abs(i - cur[name]) > I_REL_TOL * max(1.0, abs(i)):
-                    cur[name] = i
-                    if self._sup_changed is _NO_CHANGES:
-                        self._sup_changed = {}
-                    self._sup_changed[name] = i
-                    m.observe(t, i)
-                    seen = True
+                di = i - cur[name]
+                if di != 0.0:
+                    ai = i if i >= 0.0 else -i
+                    # abs(i - old) > I_REL_TOL * max(1.0, abs(i)), without the calls
+                    if (di if di >= 0.0 else -di) > I_REL_TOL * (ai if ai > 1.0 else 1.0):
+                        cur[name] = i
+                        if self._sup_changed is _NO_CHANGES:
+                            self._sup_changed = {}
+                        self._sup_changed[name] = i
+                        m.observe(t, i)
+                        seen = True
                 v = sup_v.get(name)
                 if v is not None:
                     v_old = v_seen.get(name)
-                    if v_old is None or abs(v - v_old) > V_REL_TOL * max(1.0, abs(v)):
+                    if v_old is not None:
+                        dv = v - v_old
+                        av = v if v >= 0.0 else -v
+                        new_v = (dv if dv >= 0.0 else -dv) > V_REL_TOL * (av if av > 1.0 else 1.0)
+                    else:
+                        new_v = True
+                    if new_v:
                         v_seen[name] = v
                         if observe_v is not None:
                             observe_v(t, v)
