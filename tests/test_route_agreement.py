@@ -1,9 +1,10 @@
-"""The layout's route follower and the trains' route geometry choose the same joints.
+"""The trains' route steps carry the joints and sections of the layout's route follower.
 
-Two modules follow a train's route: ``sim.layout.Layout.route_path`` (for the static checks)
-and ``sim.world.geometry.resolve_route`` (for the moving trains). Both take, at a turnout that
-offers several ways on, the first joint in file order that lets the rest of the route go on.
-This test holds them to the same answer on every train of every bundled and test scenario.
+``sim.world.geometry.resolve_route`` (the moving trains) turns the legs of
+``sim.layout.Layout.route_path`` (the static checks) into steps; a reversal splits the
+layout's leg in two and is one step of its own on the trains' side. This test holds the
+conversion to the same joints and sections on every train of every bundled and test
+scenario (the route follower itself is checked in ``test_layout.py``).
 """
 from __future__ import annotations
 

@@ -14,7 +14,9 @@ must have an end joined to that one (a joint of ``scn.track.joints``); the
 train enters by the joined end and so heads to the section's other end. When
 several joints qualify (a turnout whose routes both lead to the next section,
 such as the throat of a balloon), the one that lets the rest of the route
-continue is taken, the lowest joint index first. A route whose consecutive
+continue is taken, the first in file order. The route is followed by the
+layout's own follower (:meth:`sim.layout.Layout.route_path`, which the static
+checks use too), so both see the same joints. A route whose consecutive
 sections do not join raises :class:`sim.errors.ScenarioError` located at
 ``trains.<name>.route``.
 
@@ -27,9 +29,10 @@ Where the train stops and reverses
   tail, say), stands for ``t_wait_s`` and runs back the other way. The old rear
   becomes the front; the axles stay where they are, only the direction flips.
   The heading in that section flips, so a train reversing in a stub leaves by
-  the end it entered. The next route section must join that end (a route that
-  names the reversing section again right after the reversal is read as the
-  same section). Two reversals in a row shuttle the train: after the first it
+  the end it entered. The next route section must join that end (a section
+  named right after the reversal is a section the train crosses into, as
+  everywhere in a route: to reverse in a stub and leave it, name the next
+  section after the reversal, not the stub again). Two reversals in a row shuttle the train: after the first it
   runs to the section's other end, reverses again and heads as it came.
 * Leg ``k+1`` starts its line at the reversal point (``u = 0``) and lays the
   reversing section back to the end it now heads to, then the next route
@@ -206,23 +209,6 @@ class RoutePath:
 
 
 # ------------------------------------------------------------------ joining
-def joins(scn: Scenario, section: str, end: str, other: str) -> list[tuple[Joint, str]]:
-    """Joints from ``section.end`` to an end of ``other``, lowest index first.
-
-    Returns ``(joint, other_end)`` pairs, ``other_end`` being the end of
-    ``other`` the joint reaches.
-    """
-    out: list[tuple[Joint, str]] = []
-    for j in scn.track.joints:
-        e0, e1 = j.ends
-        if e0.section == section and e0.end == end and e1.section == other:
-            out.append((j, e1.end))
-        elif e1.section == section and e1.end == end and e0.section == other:
-            out.append((j, e0.end))
-    out.sort(key=lambda pair: pair[0].index)
-    return out
-
-
 def joints_at(scn: Scenario, section: str, end: str) -> list[tuple[Joint, str, str]]:
     """Every joint at ``section.end``: ``(joint, other_section, other_end)``."""
     out: list[tuple[Joint, str, str]] = []
@@ -246,53 +232,21 @@ def _route_error(scn: Scenario, train: Train, message: str) -> ScenarioError:
     return ScenarioError([_problem(scn, ("trains", train.name, "route"), message)])
 
 
-def _normalise(scn: Scenario, train: Train) -> list:
-    """Route items starting with the start section, repeats after reversals dropped."""
-    sections = scn.track.sections
-    problems: list[Problem] = []
-    start = train.start
-    if start.section not in sections:
-        problems.append(_problem(scn, ("trains", train.name, "start"),
-                                 f"start section {start.section!r} is not a section of the track"))
-    elif not 0.0 <= start.at_m <= sections[start.section].length_m:
-        problems.append(_problem(scn, ("trains", train.name, "start"),
-                                 f"start at {start.at_m:g} m is outside section {start.section!r} "
-                                 f"(0 m to {sections[start.section].length_m:g} m)"))
-    if start.heading not in OTHER:
-        problems.append(_problem(scn, ("trains", train.name, "start"),
-                                 f"heading must be 'a' or 'b', got {start.heading!r}"))
-    items = list(train.route)
-    for k, item in enumerate(items):
-        if not isinstance(item, Reversal) and item not in sections:
-            problems.append(_problem(scn, ("trains", train.name, "route"),
-                                     f"route item {k} ({item!r}) is not a section of the track"))
-    if not items or isinstance(items[0], Reversal):
-        items.insert(0, start.section)
-    elif items[0] != start.section:
-        problems.append(_problem(scn, ("trains", train.name, "route"),
-                                 f"the route starts in {items[0]!r} but the train starts in "
-                                 f"{start.section!r}"))
-    if problems:
-        raise ScenarioError(problems)
-    out: list = []
-    last_section = None
-    after_reversal = False
-    for item in items:
-        if isinstance(item, Reversal):
-            out.append(item)
-            after_reversal = True
-            continue
-        if after_reversal and item == last_section:
-            after_reversal = False
-            continue
-        out.append(item)
-        last_section = item
-        after_reversal = False
-    return out
-
-
-def resolve_route(scn: Scenario, train: Train) -> tuple[RouteStep, ...]:
+def resolve_route(scn: Scenario, train: Train, layout=None) -> tuple[RouteStep, ...]:
     """The route as steps: the joint crossed into each section and the heading.
+
+    The route is followed by the layout's follower
+    (:meth:`sim.layout.Layout.route_path`, the one the static checks use: the
+    first joint in file order that lets the rest of the route go on), so the
+    moving trains and the checks cross the same joints; this only turns its
+    legs into steps.
+
+    Parameters
+    ----------
+    scn : Scenario
+    train : sim.model.Train
+    layout : sim.layout.Layout, optional
+        The scenario's layout (built without the route check when ``None``).
 
     Raises
     ------
@@ -300,48 +254,25 @@ def resolve_route(scn: Scenario, train: Train) -> tuple[RouteStep, ...]:
         Consecutive route sections that do not join, located at
         ``trains.<name>.route``.
     """
-    items = _normalise(scn, train)
-    failed: set = set()
-    worst: list = [-1, ""]
-
-    def note(k: int, message: str) -> None:
-        if k > worst[0]:
-            worst[0], worst[1] = k, message
-
-    def solve(i: int, sec: str, head: str) -> Optional[list[RouteStep]]:
-        # items[i] has been done: the train is in ``sec`` heading to ``head``.
-        if i == len(items) - 1:
-            return []
-        key = (i, sec, head)
-        if key in failed:
-            return None
-        nxt = items[i + 1]
-        if isinstance(nxt, Reversal):
-            back = OTHER[head]
-            rest = solve(i + 1, sec, back)
-            if rest is not None:
-                return [RouteStep(sec, back, reversal=nxt)] + rest
+    if layout is None:
+        from sim.layout import build_layout
+        layout = build_layout(scn, check_routes=False)
+    steps = []
+    for k, leg in enumerate(layout.route_path(train)):
+        heading = "b" if leg.direction == "ab" else "a"
+        if k == 0:
+            steps.append(RouteStep(leg.section, heading))
+        elif leg.reversal is not None:
+            steps.append(RouteStep(leg.section, heading, reversal=leg.reversal))
         else:
-            cands = joins(scn, sec, head, nxt)
-            if not cands:
-                note(i + 1, f"section {nxt!r} (route item {i + 1}) does not join {sec!r} at "
-                            f"{sec}.{head}, the end the train heads to there")
-            for joint, end in cands:
-                rest = solve(i + 1, nxt, OTHER[end])
-                if rest is not None:
-                    return [RouteStep(nxt, OTHER[end], enter_end=end, joint=joint)] + rest
-        failed.add(key)
-        return None
-
-    first = RouteStep(train.start.section, train.start.heading)
-    rest = solve(0, train.start.section, train.start.heading)
-    if rest is None:
-        raise _route_error(scn, train, worst[1] or "the route's sections do not join")
-    return (first,) + tuple(rest)
+            steps.append(RouteStep(leg.section, heading, enter_end=leg.enter_end,
+                                   joint=leg.joint_in))
+    return tuple(steps)
 
 
 # ------------------------------------------------------------------- laying
-def build_route(scn: Scenario, train: Train, train_length_m: float) -> RoutePath:
+def build_route(scn: Scenario, train: Train, train_length_m: float,
+                layout=None) -> RoutePath:
     """Lay ``train``'s route out in legs (see the module notes).
 
     Parameters
@@ -350,6 +281,8 @@ def build_route(scn: Scenario, train: Train, train_length_m: float) -> RoutePath
     train : sim.model.Train
     train_length_m : float
         The consist's length, front to rear.
+    layout : sim.layout.Layout, optional
+        The scenario's layout, whose route follower gives the joints crossed.
 
     Returns
     -------
@@ -367,7 +300,7 @@ def build_route(scn: Scenario, train: Train, train_length_m: float) -> RoutePath
     Cost linear in the route length plus, once per train, a scan of the
     joints for each route step.
     """
-    steps = resolve_route(scn, train)
+    steps = resolve_route(scn, train, layout)
     sections = scn.track.sections
     length = float(train_length_m)
     start = train.start

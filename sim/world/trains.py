@@ -573,18 +573,22 @@ class TrainPlan:
         return np.concatenate([head, np.arange(i, len(self._spans))]).astype(int)
 
 
-def build_plan(scn: Scenario, train: Train) -> TrainPlan:
-    """The :class:`TrainPlan` of one train (raises ScenarioError on a bad route)."""
+def build_plan(scn: Scenario, train: Train, layout=None) -> TrainPlan:
+    """The :class:`TrainPlan` of one train (raises ScenarioError on a bad route).
+
+    ``layout`` (:class:`sim.layout.Layout`) follows the route; it is built
+    when not given.
+    """
     consist = consist_of(scn, train)
-    path = build_route(scn, train, consist.length_m)
+    path = build_route(scn, train, consist.length_m, layout)
     return TrainPlan(scn, train, consist, path)
 
 
 def build_trains(scn: Scenario, layout=None) -> dict[str, TrainPlan]:
     """Every train of ``scn`` as a :class:`TrainPlan`, by name.
 
-    ``layout`` is accepted for the common signature and not needed: the
-    joints crossed are derived from ``scn.track.joints``.
+    ``layout`` (:class:`sim.layout.Layout`) follows the routes (its
+    :meth:`~sim.layout.Layout.route_path`); it is built once when not given.
 
     Raises
     ------
@@ -594,9 +598,12 @@ def build_trains(scn: Scenario, layout=None) -> dict[str, TrainPlan]:
     """
     plans: dict[str, TrainPlan] = {}
     problems = []
+    if layout is None and scn.trains:
+        from sim.layout import build_layout
+        layout = build_layout(scn, check_routes=False)
     for name, train in scn.trains.items():
         try:
-            plans[name] = build_plan(scn, train)
+            plans[name] = build_plan(scn, train, layout)
         except ScenarioError as exc:
             problems.extend(exc.problems)
     if problems:
