@@ -123,6 +123,10 @@ I_REL_TOL = 1e-9
 V_REL_TOL = 1e-9
 #: Cache of solutions, entries kept before it is emptied.
 CACHE_MAX = 4096
+#: ... and values (currents and voltages, over all its solutions) kept before it is
+#: emptied: a large layout's solutions are large, and most states of a layout with
+#: many trains are never seen twice (about 100 bytes a value: some 100 MB at most).
+CACHE_MAX_VALUES = 1_000_000
 #: Most passes of one settle before the engine declares a loop.
 MAX_PASSES = 100_000
 #: Most settles at one instant before the engine declares a loop.
@@ -173,6 +177,7 @@ class World:
         rng = np.random.default_rng(scn.seed)
         self._init_devices(devices, rng)
         self._cache: dict = {}
+        self._cache_values = 0                # values held by the cached solutions (about)
         self._short_by_key: dict = {}          # state key -> short-path currents of its solution
         self._sol_key = None                  # state key of the last solve
         self._state: dict = {}
@@ -539,10 +544,16 @@ class World:
             self.n_full_solves += 1
             sol = self.circuit.solve()
         self.t_circuit_s += time.perf_counter() - t0
-        if len(self._cache) >= CACHE_MAX:
+        # (each device, supply, load and short has two values: current and lead
+        # currents, current and voltage)
+        weight = (2 * (len(sol.device_i_a) + len(sol.supply_i_a) + len(sol.load_v_v)
+                       + len(sol.short_i_a)) + len(sol.bridge_i_a) + 1)
+        if len(self._cache) >= CACHE_MAX or self._cache_values + weight > CACHE_MAX_VALUES:
             self._cache.clear()
             self._short_by_key.clear()
+            self._cache_values = 0
         self._cache[key] = sol
+        self._cache_values += weight
         return sol
 
     def _solve_supplies(self, t: float):

@@ -100,6 +100,16 @@ class LoadPoint(NamedTuple):
     vehicle: int
 
 
+def _bridge_group(self) -> int:
+    """Alias of ``group_index``."""
+    return self.group_index
+
+
+def _bridge_key(self) -> tuple:
+    """``(train, group_index, joint_index)``: a key for the circuit's bridge."""
+    return (self.train, self.group_index, self.joint_index)
+
+
 class BridgeSpan(NamedTuple):
     """Front distances during which a conducting group bridges a gapped joint."""
 
@@ -112,15 +122,8 @@ class BridgeSpan(NamedTuple):
     kind: str
     train: str
 
-    @property
-    def group(self) -> int:
-        """Alias of ``group_index``."""
-        return self.group_index
-
-    @property
-    def key(self) -> tuple:
-        """``(train, group_index, joint_index)``: a key for the circuit's bridge."""
-        return (self.train, self.group_index, self.joint_index)
+    group = property(_bridge_group)
+    key = property(_bridge_key)
 
 
 class BridgeInterval(NamedTuple):
@@ -141,15 +144,8 @@ class BridgeInterval(NamedTuple):
     s_on_m: float
     s_off_m: float
 
-    @property
-    def group(self) -> int:
-        """Alias of ``group_index``."""
-        return self.group_index
-
-    @property
-    def key(self) -> tuple:
-        """``(train, group_index, joint_index)``: a key for the circuit's bridge."""
-        return (self.train, self.group_index, self.joint_index)
+    group = property(_bridge_group)
+    key = property(_bridge_key)
 
 
 class BridgeEvent(NamedTuple):
