@@ -4,7 +4,8 @@ The reference re-implements the device logic independently and steps a clock;
 the two must agree on outcomes (the same device events, in the same order,
 with the same counts) and on event times within one step. Every setting in
 these scenarios is a multiple of the step, so each event lands on the step
-grid; the thermal replica's crossings do not, so for it each interval
+grid; trains stopping on keep-alive and going on again (``stop`` / ``go``) are
+compared like device events, per train; the thermal replica's crossings do not, so for it each interval
 between consecutive events must agree within one step (the error of a
 stepped crossing then does not carry into the next one).
 """
@@ -18,7 +19,7 @@ from pathlib import Path
 
 HERE = Path(__file__).parent / "scenarios" / "run"
 KINDS = {"trip", "thermal_trip", "thermal_resume", "swap_start", "swapped", "restart",
-         "reclose", "dropout", "off", "on", "give_up"}
+         "reclose", "dropout", "off", "on", "give_up", "stop", "go"}
 
 CASES = [  # scenario, simulated time (s), step (s)
     ("race-plus", 0.8, 1e-5),
@@ -27,6 +28,10 @@ CASES = [  # scenario, simulated time (s), step (s)
     ("backoff", 9.0, 1e-4),
     ("hiccup", 3.0, 1e-4),
     ("thermal", 3.0, 1e-4),
+    # trains with draw and keep-alives: stops, goes and inrush pulses (the reference
+    # steps each train's front distance; the engine re-plans its closed-form motion)
+    ("inrush", 3.0, 1e-4),
+    ("stall", 8.0, 1e-4),
 ]
 
 

@@ -39,9 +39,21 @@ state at ``t``:
 * **supply** - over its limit: hiccup (off ``t_off_s``, then on), latch (off)
   or constant-current (the circuit holds the limit).
 
-Trains are taken at constant speed from their plans' bridge intervals (the
-reference does not model a train stopping without power); test scenarios for
-it keep trains without draw and keep-alive capacitors.
+* **trains** - the front distance ``s`` is stepped: within a step the train
+  waits out a reversal (the wait runs whatever the power does), moves at its
+  speed from its departure while it has power or keep-alive left, and stops
+  at the route end; a conducting group bridges a joint while ``s`` lies in
+  one of the plan's spans (route geometry, :meth:`TrainPlan.spans`). Each
+  locomotive draws ``V_nominal / draw`` at the middle of the section its draw
+  point is in, placed at the start and again at every step in which the
+  train's bridges changed (the engine's documented rule). After each solve a
+  train has power when the voltage at one of its loads is at least half the
+  nominal voltage and every device above that load conducts; without power it
+  runs on for its keep-alive time and then stops (``stop``), and goes on when
+  power returns (``go``). When a device closes again after a trip, a thermal
+  lockout, an undervoltage dropout or a reset, every locomotive with a
+  keep-alive whose load it feeds draws ``V / i_peak`` for ``tau`` (the
+  engine's rectangular inrush pulse, :func:`sim.circuit.inrush.inrush`).
 """
 from __future__ import annotations
 
@@ -56,6 +68,149 @@ from sim.model import Scenario
 #: Default step of the reference (s).
 DT_S = 1e-5
 _EPS = 1e-12
+#: A train has power at half its nominal voltage (as the engine's POWER_FRACTION).
+POWER_FRACTION = 0.5
+#: Device events after which a closing output charges the keep-alives.
+_INRUSH_CAUSES = ("restart", "reset", "thermal_resume")
+
+
+class _RefTrain:
+    """A train stepped along its route (module doc: trains)."""
+
+    def __init__(self, name: str, plan, layout, scn: Scenario):
+        self.name = name
+        self.plan = plan
+        self.spans = plan.spans
+        self.revs = list(plan.reversal_points)
+        self.end_m = plan.route_length_m
+        self.v = plan.speed_mps
+        self.depart = plan.depart_s
+        self.keep_alive = plan.t_keep_alive_s
+        self.s = 0.0
+        self.rev_k = 0                     # next reversal point
+        self.wait_left: Optional[float] = None
+        self.powered = True
+        self.t_stop: Optional[float] = None   # keep-alive runs out here
+        self.stopped = False
+        self.layout = layout
+        self.vehicles = plan.consist.vehicles
+        self.v_nom = 0.0
+        pts = plan.load_points(0.0)
+        for p in pts:
+            for d in layout.device_chain(p.section):
+                if d in scn.supplies:
+                    self.v_nom = scn.supplies[d].v_emf_v
+                    break
+            if self.v_nom:
+                break
+        if not self.v_nom and scn.supplies:
+            self.v_nom = next(iter(scn.supplies.values())).v_emf_v
+        self.sections = scn.track.sections
+        self.loads: dict = {}              # key -> (section, at_m, r_ohm, chain)
+        self.pulses: dict = {}             # key -> (section, at_m, r_ohm, t_end)
+        self.bridges: frozenset = frozenset()
+        self.bridges = self._bridges()
+        self._place_loads()
+
+    def _bridges(self) -> frozenset:
+        s = self.s
+        return frozenset(k for k, b in enumerate(self.spans) if b.s_on_m <= s + _EPS < b.s_off_m)
+
+    def _place_loads(self) -> None:
+        if self.plan.draw_a <= 0.0 or self.v_nom <= 0.0:
+            return
+        for p in self.plan.load_points(self.s):
+            key = ("ld", self.name, p.vehicle)
+            old = self.loads.get(key)
+            if old is not None and old[0] == p.section:
+                continue
+            self.loads[key] = (p.section, 0.5 * self.sections[p.section].length_m,
+                               self.v_nom / p.draw_a, self.layout.device_chain(p.section))
+
+    def bridge_items(self):
+        for k in self.bridges:
+            b = self.spans[k]
+            yield ("ref-br", self.name, b.group_index, b.joint_index), b
+
+    def load_items(self, t: float):
+        for key, (sec, at, r, _chain) in self.loads.items():
+            yield key, (sec, at, r)
+        for key, (sec, at, r, t_end) in self.pulses.items():
+            if t < t_end - _EPS:
+                yield key, (sec, at, r)
+
+    def check_power(self, t: float, sol, conducting, ev: list) -> None:
+        if not self.loads:
+            return
+        # a keep-alive running out at this very instant acts first (the engine's
+        # tie-break: trains before devices), even if power is back at it
+        if (not self.powered and self.t_stop is not None and not self.stopped
+                and self.t_stop <= t + _EPS):
+            self.stopped = True
+            ev.append((t, self.name, "stop"))       # (due now: on the step grid)
+        ok = any(abs(sol.load_v_v.get(key, 0.0)) >= POWER_FRACTION * self.v_nom
+                 and all(conducting(d) for d in chain)
+                 for key, (_s, _a, _r, chain) in self.loads.items())
+        if ok == self.powered:
+            return
+        self.powered = ok
+        if ok:
+            if self.stopped:
+                ev.append((t, self.name, "go"))
+            self.stopped = False
+            self.t_stop = None
+        else:
+            self.t_stop = t + self.keep_alive
+            if self.t_stop <= t + _EPS:
+                self.stopped = True
+                ev.append((t, self.name, "stop"))
+
+    def inrush(self, t: float, device: str) -> None:
+        from sim.circuit.inrush import inrush
+        for key, (sec, at, _r, chain) in self.loads.items():
+            if device not in chain:
+                continue
+            i_peak, tau = inrush(self.vehicles[key[2]], self.v_nom)
+            if i_peak > 0.0 and tau > 0.0:
+                self.pulses[("in", self.name, key[2])] = (sec, at, self.v_nom / i_peak, t + tau)
+
+    def step(self, t: float, dt: float, ev: list) -> None:
+        """Move over ``[t, t + dt)``; bridges and loads as they stand at ``t + dt``."""
+        now, t1 = t, t + dt
+        if not self.powered and self.t_stop is not None and not self.stopped \
+                and self.t_stop < t1 - _EPS:
+            t_run = self.t_stop
+        else:
+            t_run = t1 if (self.powered or not self.stopped) else now
+        while now < t1 - _EPS:
+            if self.wait_left is not None:
+                use = min(self.wait_left, t1 - now)
+                self.wait_left -= use
+                now += use
+                if self.wait_left <= _EPS:
+                    self.wait_left = None
+                continue
+            start = max(now, self.depart)
+            if start >= min(t_run, t1) - _EPS or self.s >= self.end_m - _EPS:
+                break
+            target = self.revs[self.rev_k].s_m if self.rev_k < len(self.revs) else self.end_m
+            avail = min(t_run, t1) - start
+            if self.s + self.v * avail >= target - _EPS:
+                now = start + (target - self.s) / self.v
+                self.s = target
+                if self.rev_k < len(self.revs):
+                    self.wait_left = self.revs[self.rev_k].t_wait_s
+                    self.rev_k += 1
+                continue
+            self.s += self.v * avail
+            now = start + avail
+        if self.t_stop is not None and not self.stopped and self.t_stop < t1 - _EPS:
+            self.stopped = True
+            ev.append((self.t_stop, self.name, "stop"))
+        new = self._bridges()
+        if new != self.bridges:
+            self.bridges = new
+            self._place_loads()
 
 
 def _ceil_int(x: float) -> int:
@@ -434,18 +589,21 @@ def simulate(scn: Scenario, t_end_s: Optional[float] = None, dt_s: float = DT_S,
     order = sorted(devs, key=lambda n: (-depth[n], n))
     # supplies step first: a booster sees 0 V from the step its supply goes off
     step_order = list(scn.supplies) + [n for n in order if n not in scn.supplies]
-    # bridges at constant speed
-    intervals = []
+    # trains, stepped along their routes
+    trains = []
     if scn.trains:
         from sim.world.trains import build_trains
         plans = plans if plans is not None else build_trains(scn, layout)
-        for name, plan in plans.items():
-            tr = scn.trains[name]
-            for b in plan.bridges(tr.depart_s, 0.0, tr.speed_mps):
-                intervals.append(b)
-    intervals.sort(key=lambda b: b.t_on_s)
+        trains = [_RefTrain(name, plans[name], layout, scn) for name in sorted(plans)]
     active: dict = {}
-    nxt = 0
+    loads: dict = {}
+
+    def conducting(name):
+        d = devs[name]
+        return d.on if d.kind == "supply" else d.closed
+
+    was_closed = {n: True for n in devs}
+    was_uv = {n: False for n in devs}
     faults = [(f.at_s, f.at_s + f.lasts_s if (f.kind == "short" and f.lasts_s is not None)
                else math.inf, k, f) for k, f in enumerate(scn.faults)]
     actions = sorted((a.at_s, k, a) for k, a in enumerate(scn.actions))
@@ -458,12 +616,8 @@ def simulate(scn: Scenario, t_end_s: Optional[float] = None, dt_s: float = DT_S,
     for k in range(n):
         t = k * dt_s
         # topology at t
-        while nxt < len(intervals) and intervals[nxt].t_on_s <= t + _EPS:
-            b = intervals[nxt]
-            active[(b.train, b.group, b.joint_index, b.rail, nxt)] = b
-            nxt += 1
-        for key in [key for key, b in active.items() if b.t_off_s <= t + _EPS]:
-            del active[key]
+        active = {key: b for tr in trains for key, b in tr.bridge_items()}
+        loads = {key: v for tr in trains for key, v in tr.load_items(t)}
         while a_next < len(actions) and actions[a_next][0] <= t + _EPS:
             a = actions[a_next][2]
             if a.kind == "reset" and a.device in devs:
@@ -478,17 +632,23 @@ def simulate(scn: Scenario, t_end_s: Optional[float] = None, dt_s: float = DT_S,
                 state.append((name, d.on, d.limiting))
             else:
                 state.append((name, d.closed, d.swapped))
-        bkeys = tuple(sorted((b.joint_index, b.rail, b.r_ohm, key[:2])
+        bkeys = tuple(sorted((b.joint_index, b.rail, b.r_ohm, key[1:3])
                              for key, b in active.items()))
+        lkeys = tuple(sorted(loads.items()))
         fkeys = tuple(kf for (t0, t1, kf, f) in faults if t0 <= t + _EPS < t1 + _EPS
                       and (t1 == math.inf or t < t1 - _EPS))
-        skey = (tuple(state), bkeys, fkeys)
+        skey = (tuple(state), bkeys, fkeys, lkeys)
         sol = cache.get(skey)
         if sol is None:
             res.solves += 1
-            _apply(circuit, scn, devs, active, fkeys, faults, applied)
+            _apply(circuit, scn, devs, active, fkeys, faults, applied, loads)
             sol = circuit.solve()
             cache[skey] = sol
+        # trains: power from this solve and the outputs as they stand at t
+        if trains:
+            for tr in trains:
+                tr.check_power(t, sol, conducting, ev)
+        n_before = len(ev)
         # devices
         for name in step_order:
             d = devs[name]
@@ -501,6 +661,23 @@ def simulate(scn: Scenario, t_end_s: Optional[float] = None, dt_s: float = DT_S,
                 if d.kind == "booster":
                     v = sol.supply_v_v.get(d.rec.supply) if devs[d.rec.supply].on else 0.0
             d.step(t, dt_s, i, v, ev)
+        # trains: the motion over the step
+        for tr in trains:
+            tr.step(t, dt_s, ev)
+        # outputs closing again after a trip, lockout, dropout or reset: inrush
+        for name, d in devs.items():
+            if d.kind == "supply":
+                continue
+            closed = d.closed
+            if closed and not was_closed[name] and trains:
+                cause = any(dn == name and (e in _INRUSH_CAUSES
+                                            or (e == "reclose" and was_uv[name]))
+                            for _, dn, e in ev[n_before:])
+                if cause:
+                    for tr in trains:
+                        tr.inrush(t + dt_s, name)
+            was_closed[name] = closed
+            was_uv[name] = d.uv_open
     res.steps = n
     res.events = sorted(ev, key=lambda e: (e[0], order.index(e[1]) if e[1] in order else -1))
     for name, d in devs.items():
@@ -512,7 +689,7 @@ def simulate(scn: Scenario, t_end_s: Optional[float] = None, dt_s: float = DT_S,
     return res
 
 
-def _apply(circuit, scn, devs, active, fkeys, faults, applied) -> None:
+def _apply(circuit, scn, devs, active, fkeys, faults, applied, loads=None) -> None:
     """Bring the circuit to the reference's present state (plain: set everything)."""
     for name, d in devs.items():
         if d.kind == "supply":
@@ -535,6 +712,15 @@ def _apply(circuit, scn, devs, active, fkeys, faults, applied) -> None:
         if key not in have_b:
             circuit.set_bridge(key, b.joint_index, b.rail, b.r_ohm)
             have_b.add(key)
+    have_l = applied.setdefault("_loads", {})
+    want_l = loads or {}
+    for key in [k for k in have_l if k not in want_l]:
+        circuit.clear_load(key)
+        del have_l[key]
+    for key, (sec, at, r) in want_l.items():
+        if have_l.get(key) != (sec, at, r):
+            circuit.set_load(key, sec, at, r)
+            have_l[key] = (sec, at, r)
     have_f = applied.setdefault("_faults", set())
     want_f = set(fkeys)
     for (t0, t1, kf, f) in faults:
