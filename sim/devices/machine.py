@@ -193,11 +193,7 @@ class ProtectionMachine:
     def observe(self, t_s: float, i_a: float) -> None:
         """The current through the output is ``i_a`` from ``t_s`` on."""
         t = self._t
-        c = self._nc
-        if c is _STALE:
-            c = self._nc = self._next()
-        if t_s < t - T_TOL_S or (c is not None and t_s > (c[0] if c[0] > t else t) + T_TOL_S):
-            self._check_time(t_s)                 # raises, with the message
+        self._check_order(t_s, t)
         self._nc = _STALE
         if t_s < t:
             t_s = t
@@ -217,11 +213,7 @@ class ProtectionMachine:
     def observe_supply_v(self, t_s: float, v_v: float) -> None:
         """The supply voltage at the device is ``v_v`` from ``t_s`` on (undervoltage)."""
         t = self._t
-        c = self._nc
-        if c is _STALE:
-            c = self._nc = self._next()
-        if t_s < t - T_TOL_S or (c is not None and t_s > (c[0] if c[0] > t else t) + T_TOL_S):
-            self._check_time(t_s)                 # raises, with the message
+        self._check_order(t_s, t)
         if t_s > t:
             self._t = t_s
         else:
@@ -348,6 +340,15 @@ class ProtectionMachine:
             m.replica = copy.copy(self.replica)
         m.restart = copy.copy(self.restart)
         return m
+
+    def _check_order(self, t_s: float, t: float) -> None:
+        """``_check_time`` in a few comparisons when the time is in order (every
+        observation passes here; the kept next transition is computed if stale)."""
+        c = self._nc
+        if c is _STALE:
+            c = self._nc = self._next()
+        if t_s < t - T_TOL_S or (c is not None and t_s > (c[0] if c[0] > t else t) + T_TOL_S):
+            self._check_time(t_s)                 # raises, with the message
 
     def _check_time(self, t_s: float) -> None:
         check_observation_time(self.name, self._t, t_s, self.next_deadline())

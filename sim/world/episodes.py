@@ -216,12 +216,7 @@ class EpisodeTracker:
         events: list[Event] = []
         # close the groups that no longer carry short current
         if close and opened:
-            for gkey in [g for g in opened if g not in groups]:
-                op = opened.pop(gkey)
-                op.ep.end_s = t_s
-                self._finish(op)
-                events.append(Event(t_s, op.ep.where, "cleared",
-                                    {"kind": op.ep.kind, "outcome": op.ep.outcome}))
+            self._close_quiet(t_s, groups, events)
         for gkey, (path, _i_max, i_sum, keys) in groups.items():
             op = opened.get(gkey)
             if op is None:
@@ -251,17 +246,21 @@ class EpisodeTracker:
         last :meth:`solution` (the same as ``solution(t_s, same currents, {},
         close=True)``, without going over the paths again): close every open
         episode whose group carried no short current in that solution."""
-        opened = self._open
-        groups = self._last_groups
         events: list[Event] = []
+        self._close_quiet(t_s, self._last_groups, events)
+        self.pending_close = False
+        return events
+
+    def _close_quiet(self, t_s: float, groups: Mapping, events: list) -> None:
+        """Close every open episode whose group is not in ``groups`` (carries no
+        short current), appending its ``cleared`` event."""
+        opened = self._open
         for gkey in [g for g in opened if g not in groups]:
             op = opened.pop(gkey)
             op.ep.end_s = t_s
             self._finish(op)
             events.append(Event(t_s, op.ep.where, "cleared",
                                 {"kind": op.ep.kind, "outcome": op.ep.outcome}))
-        self.pending_close = False
-        return events
 
     def device_event(self, ev: Event) -> None:
         """Feed one device event."""
