@@ -5,9 +5,10 @@ the two must agree on outcomes (the same device events, in the same order,
 with the same counts) and on event times within one step. Every setting in
 these scenarios is a multiple of the step, so each event lands on the step
 grid; trains stopping on keep-alive and going on again (``stop`` / ``go``) are
-compared like device events, per train; the thermal replica's crossings do not, so for it each interval
-between consecutive events must agree within one step (the error of a
-stepped crossing then does not carry into the next one).
+compared like device events, per train. The thermal replica's crossings do not
+land on the grid, so for it each interval between consecutive events must
+agree within one step (the error of a stepped crossing then does not carry
+into the next one).
 """
 import pytest
 

@@ -32,8 +32,9 @@ Where the train stops and reverses
   the end it entered. The next route section must join that end (a section
   named right after the reversal is a section the train crosses into, as
   everywhere in a route: to reverse in a stub and leave it, name the next
-  section after the reversal, not the stub again). Two reversals in a row shuttle the train: after the first it
-  runs to the section's other end, reverses again and heads as it came.
+  section after the reversal, not the stub again). Two reversals in a row
+  shuttle the train: after the first it runs to the section's other end,
+  reverses again and heads as it came.
 * Leg ``k+1`` starts its line at the reversal point (``u = 0``) and lays the
   reversing section back to the end it now heads to, then the next route
   sections. At the start of leg ``k+1`` the train covers ``0 <= u <= L``
