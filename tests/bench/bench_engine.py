@@ -119,6 +119,32 @@ def simpy_timeouts_per_s(n: int = 200_000) -> float:
     return n / (time.perf_counter() - t0)
 
 
+def bytecodes_per_event(scn) -> tuple[float, float]:
+    """CPython bytecodes and Python calls per event of one run (``sys.settrace`` opcode
+    tracing): a count that, unlike a timing, does not depend on the machine's load."""
+    import sys
+
+    counts = [0, 0]
+
+    def tracer(frame, event, arg):
+        if event == "call":
+            counts[1] += 1
+            frame.f_trace_opcodes = True
+            return tracer
+        if event == "opcode":
+            counts[0] += 1
+        return tracer
+
+    w = World(scn)
+    sys.settrace(tracer)
+    try:
+        res = w.run()
+    finally:
+        sys.settrace(None)
+    n = engine_events(res)
+    return counts[0] / n, counts[1] / n
+
+
 def engine_events(res) -> int:
     """Events the world handled: device transitions plus topology changes (module doc)."""
     return res.stats["transitions"] + res.stats["topology"]
@@ -162,6 +188,9 @@ def test_bench_event_rate_small_layout():
           f"[bench]   earlier count (records + circuit changes): {n_loose} in {wall:.3f} s = "
           f"{n_loose / wall:,.0f} /s, ratio {n_loose / wall / ref:.3f}; runs "
           f"{', '.join(f'{x:.3f}' for x in walls)} s")
+    ops, calls = bytecodes_per_event(replace(scn, duration_s=2.5))
+    print(f"[bench]   per event (2.5 s of the same run, traced): {ops:,.0f} CPython bytecodes, "
+          f"{calls:.1f} Python calls")
     assert n > 10_000
 
 
