@@ -69,7 +69,7 @@ class SupplyDevice:
         self._t_limit_since: Optional[float] = None
         self._t_on: Optional[float] = None        # hiccup: back on
         self._cc = model.on_limit == "constant-current"
-        self._limits_first_b = self._cc or self.t_limit_s > 0.0
+        self._limits_first = self._cc or self.t_limit_s > 0.0
         self._v_knee_v = model.v_emf_v - self.i_limit_a * model.r_ohm
         self._nd = _STALE                         # next_deadline(), until the state changes
 
@@ -87,9 +87,6 @@ class SupplyDevice:
         if self.limiting:
             return (not self._released) and self._i >= self.i_limit_a * (1.0 - _LIMIT_REL)
         return self._i > self.i_limit_a
-
-    def _limits_first(self) -> bool:
-        return self._limits_first_b
 
     def _check_fast(self, t_s: float) -> None:
         """``_check_time`` without the calls when the time is in order."""
@@ -128,7 +125,7 @@ class SupplyDevice:
         """``(time, priority, kind)`` of the next transition, or ``None``."""
         if self.on:
             want = self._over()
-            if self._limits_first_b:
+            if self._limits_first:
                 if want != self.limiting:
                     return (self._t, 0, "limit")
                 if self.limiting and not self._cc:

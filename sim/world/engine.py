@@ -176,9 +176,8 @@ class World:
         self.circuit = circuit if circuit is not None else build_circuit(scn, self.layout)
         rng = np.random.default_rng(scn.seed)
         self._init_devices(devices, rng)
-        self._cache: dict = {}
+        self._cache: dict = {}                # state key -> [solution, short-path currents or None]
         self._cache_values = 0                # values held by the cached solutions (about)
-        self._short_by_key: dict = {}          # state key -> short-path currents of its solution
         self._sol_key = None                  # state key of the last solve
         self._state: dict = {}
         self._state_digest: dict = {}         # key -> digest of its present item
@@ -509,7 +508,7 @@ class World:
                 drv = min(due, key=_rank)
                 due.discard(drv)
             f = drv.fire_s
-            if f is None or f > t:                        # not drv.due(t)
+            if f is None or f > t:                        # not due at this instant
                 drv.arm()
                 continue
             d = drv.armed_s
@@ -530,10 +529,10 @@ class World:
         self.n_solves += 1
         key = self._hash
         self._sol_key = key
-        sol = self._cache.get(key)
-        if sol is not None:
+        ent = self._cache.get(key)
+        if ent is not None:
             self.n_cache_hits += 1
-            return sol
+            return ent[0]
         t0 = time.perf_counter()
         try:
             sol = self.circuit.update()
@@ -550,9 +549,8 @@ class World:
                        + len(sol.short_i_a)) + len(sol.bridge_i_a) + 1)
         if len(self._cache) >= CACHE_MAX or self._cache_values + weight > CACHE_MAX_VALUES:
             self._cache.clear()
-            self._short_by_key.clear()
             self._cache_values = 0
-        self._cache[key] = sol
+        self._cache[key] = [sol, None]
         self._cache_values += weight
         return sol
 
@@ -710,21 +708,19 @@ class World:
         only), so the currents are kept per state key beside its cached
         solution and made once per state.
         """
-        key = self._sol_key
-        if sol is self._cache.get(key):
-            currents = self._short_by_key.get(key)
-            if currents is not None:
-                return currents
-        else:
-            key = None
+        ent = self._cache.get(self._sol_key)
+        if ent is not None and ent[0] is not sol:
+            ent = None
+        if ent is not None and ent[1] is not None:
+            return ent[1]
         bi = sol.bridge_i_a
         si = sol.short_i_a
         currents = {}
         for k, path in self.paths.items():
             i = (si if path.kind == "fault" else bi).get(k, 0.0)
             currents[path] = i if i >= 0.0 else -i
-        if key is not None:
-            self._short_by_key[key] = currents
+        if ent is not None:
+            ent[1] = currents
         return currents
 
     # ------------------------------------------------------- device output

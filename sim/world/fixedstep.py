@@ -108,8 +108,7 @@ class _RefTrain:
         self.sections = scn.track.sections
         self.loads: dict = {}              # key -> (section, at_m, r_ohm, chain)
         self.pulses: dict = {}             # key -> (section, at_m, r_ohm, t_end)
-        self.bridges: frozenset = frozenset()
-        self.bridges = self._bridges()
+        self.bridges: frozenset = self._bridges()
         self._place_loads()
 
     def _bridges(self) -> frozenset:
@@ -177,11 +176,14 @@ class _RefTrain:
     def step(self, t: float, dt: float, ev: list) -> None:
         """Move over ``[t, t + dt)``; bridges and loads as they stand at ``t + dt``."""
         now, t1 = t, t + dt
-        if not self.powered and self.t_stop is not None and not self.stopped \
-                and self.t_stop < t1 - _EPS:
-            t_run = self.t_stop
+        # it may move until t_run: not at all when stopped, until its keep-alive
+        # runs out when unpowered (t_stop set), the whole step otherwise
+        if self.stopped:
+            t_run = now
+        elif self.t_stop is not None:
+            t_run = min(t1, self.t_stop)
         else:
-            t_run = t1 if (self.powered or not self.stopped) else now
+            t_run = t1
         while now < t1 - _EPS:
             if self.wait_left is not None:
                 use = min(self.wait_left, t1 - now)
@@ -191,10 +193,10 @@ class _RefTrain:
                     self.wait_left = None
                 continue
             start = max(now, self.depart)
-            if start >= min(t_run, t1) - _EPS or self.s >= self.end_m - _EPS:
+            if start >= t_run - _EPS or self.s >= self.end_m - _EPS:
                 break
             target = self.revs[self.rev_k].s_m if self.rev_k < len(self.revs) else self.end_m
-            avail = min(t_run, t1) - start
+            avail = t_run - start
             if self.s + self.v * avail >= target - _EPS:
                 now = start + (target - self.s) / self.v
                 self.s = target

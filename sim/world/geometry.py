@@ -210,19 +210,6 @@ class RoutePath:
 
 
 # ------------------------------------------------------------------ joining
-def joints_at(scn: Scenario, section: str, end: str) -> list[tuple[Joint, str, str]]:
-    """Every joint at ``section.end``: ``(joint, other_section, other_end)``."""
-    out: list[tuple[Joint, str, str]] = []
-    for j in scn.track.joints:
-        e0, e1 = j.ends
-        if e0.section == section and e0.end == end:
-            out.append((j, e1.section, e1.end))
-        elif e1.section == section and e1.end == end:
-            out.append((j, e0.section, e0.end))
-    out.sort(key=lambda item: item[0].index)
-    return out
-
-
 def _problem(scn: Scenario, path: tuple, message: str) -> Problem:
     loc = scn.locations.get(tuple(path))
     return Problem(file=scn.path, path=".".join(str(p) for p in path), message=message,
@@ -298,9 +285,12 @@ def build_route(scn: Scenario, train: Train, train_length_m: float,
 
     Notes
     -----
-    Cost linear in the route length plus, once per train, a scan of the
-    joints for each route step.
+    Cost linear in the route length; the joints at each section end come from
+    the layout (built once when ``layout`` is not given).
     """
+    if layout is None:
+        from sim.layout import build_layout
+        layout = build_layout(scn, check_routes=False)
     steps = resolve_route(scn, train, layout)
     sections = scn.track.sections
     length = float(train_length_m)
@@ -318,13 +308,15 @@ def build_route(scn: Scenario, train: Train, train_length_m: float,
     guard = 0
     while need > 0.0:
         guard += 1
-        around = joints_at(scn, cur, rear_end)
+        around = layout.joints_at(cur, rear_end)          # in file order
         if not around or guard > 10 * max(1, len(sections)):
             raise ScenarioError([_problem(
                 scn, ("trains", train.name, "start"),
                 f"train {train.name!r} ({length:g} m) does not fit behind its start: its rear "
                 f"would stand beyond the dead end {cur}.{rear_end}")])
-        joint, other, oend = around[0]
+        joint = around[0]
+        far = layout.far_end(joint, cur, rear_end)
+        other, oend = far.section, far.end
         olen = sections[other].length_m
         d = +1 if oend == "b" else -1
         at_f = olen if oend == "b" else 0.0

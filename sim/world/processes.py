@@ -143,11 +143,6 @@ class DeviceDriver:
         self._ev = None
         self.world.fire_due(self)
 
-    def due(self, t_s: float) -> bool:
-        """Whether its armed deadline is at (or before) the instant ``t_s``."""
-        d = self.fire_s
-        return d is not None and d <= t_s
-
 
 def train_process(world: "World", drv):
     """The simpy process of one train (machine-shop pattern, see module doc).
