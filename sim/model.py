@@ -478,6 +478,12 @@ class Finding:
     ``code`` is a stable identifier of our own (``RF-POL-001`` ...), ``where``
     names the place (a key path, a section, a joint), ``fix`` the smallest
     change that mends it ("" when none applies).
+
+    A finding of a run may stand for several occurrences of one cause at one
+    place: ``count`` of them, the first at ``first_s`` and the last at
+    ``last_s`` (seconds of simulated time; ``None`` for a static finding).
+    ``because`` names the root-cause finding (``"CODE where"``) that this one
+    only follows from ("" when it is a cause of its own).
     """
 
     severity: str  # "error" | "warning" | "info"
@@ -485,10 +491,22 @@ class Finding:
     where: str
     message: str
     fix: str = ""
+    count: int = 1
+    first_s: Optional[float] = None
+    last_s: Optional[float] = None
+    because: str = ""
 
     def as_dict(self) -> dict:
         d = {"severity": self.severity, "code": self.code, "where": self.where,
              "message": self.message}
         if self.fix:
             d["fix"] = self.fix
+        if self.count != 1:
+            d["count"] = self.count
+        if self.first_s is not None:
+            d["first_s"] = self.first_s
+        if self.last_s is not None:
+            d["last_s"] = self.last_s
+        if self.because:
+            d["because"] = self.because
         return d

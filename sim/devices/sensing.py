@@ -24,11 +24,11 @@ import math
 import sys
 from typing import Optional
 
+from sim.timebase import T_TOL_S  # noqa: F401  (re-exported: the one time base)
+
 #: Relative tolerance used to snap a ratio to an integer before ``ceil``.
 REL_TOL = 1e-9
 
-#: Absolute time tolerance (s) below which two instants are the same instant.
-T_TOL_S = 1e-9
 
 
 def ceil_tol(x: float, rel: float = REL_TOL) -> int:

@@ -37,17 +37,12 @@ from typing import TYPE_CHECKING, Optional
 
 import simpy
 
+from sim.timebase import T_DIGITS, T_TOL_S  # noqa: F401  (re-exported)
 from sim.trace import Event
 
 if TYPE_CHECKING:  # pragma: no cover
     from sim.world.engine import World
 
-#: Instants closer than this (s) are the same instant (as sim.devices.sensing).
-T_TOL_S = 1e-9
-#: Decimal places of the instants events are scheduled at (1 ns): two deadlines
-#: that differ by float rounding only (0.75 + 0.003 and 0.75 + 0.0005 + 0.0025)
-#: land on one instant and meet the tie-break, not an accident of rounding.
-T_DIGITS = 9
 
 _NORMAL = simpy.core.NORMAL
 
