@@ -23,3 +23,10 @@ T_TOL_S = 1e-9
 def snap_s(t_s: float) -> float:
     """``t_s`` on the 1 ns grid of the run (:data:`T_DIGITS` decimal places)."""
     return round(t_s, T_DIGITS)
+
+
+#: Smallest non-zero time interval a scenario may give (retry and back-off waits,
+#: a supply's off time, thermal time constants, sample periods, delays): a
+#: thousand steps of the 1 ns grid, so that sums of such intervals stay exact to
+#: the grid. Zero stays allowed where the format allows it.
+T_MIN_S = 1e-6
