@@ -38,12 +38,14 @@ def test_kinds_and_phases():
 
 def test_drawn_phase_moves_the_trip_on_the_grid():
     # phase p: samples at (k + p) * 100 us; onset 0 -> first sample p * 100 us,
-    # trip after n = 20 samples: (p + 19) * 100 us (sensing rule, domain.md)
+    # trip after n = 20 samples: (p + 19) * 100 us (sensing rule, domain.md), an
+    # instant on the run's 1 ns grid (sim.timebase: within half a grid step)
     scn = scenario()
     dev = make_device(scn, "b1", np.random.default_rng(5))
     p = np.random.default_rng(5).random()
     dev.observe(0.0, 9.0)
-    assert dev.next_deadline() == pytest.approx((p + 19) * 1e-4, abs=1e-15)
+    assert dev.next_deadline() == pytest.approx((p + 19) * 1e-4, abs=0.5e-9)
+    assert dev.next_deadline() == round(dev.next_deadline(), 9)
 
 
 def test_demo_layout_builds():

@@ -11,8 +11,13 @@ Pure: no simpy, no circuit. The engine drives it through the device protocol:
     transition, e.g. an undervoltage dropout) and some deadlines are internal
     (the end of a hold-off) and produce no event.
 ``advance(t_s)``
-    Perform every transition due at or before ``t_s`` (within 1 ns) and return
-    their :class:`~sim.devices.events.DeviceEvent` list, in time order.
+    Perform the transitions due at or before ``t_s`` and return their
+    :class:`~sim.devices.events.DeviceEvent` list, in time order. It stops after
+    a transition that changes the output (``closed`` or ``swapped``): what comes
+    next depends on the current the changed output carries, which only the
+    engine can tell (``observe``); a device whose next transition is due at
+    once is simply due again. So a machine never loops on a current that its
+    own output has already changed (zero swap, dead and hold-off times).
 ``reset(t_s)``
     An operator reset.
 
@@ -43,6 +48,17 @@ Components
 Ties at one instant are taken in the order: dropout, thermal trip, trip,
 swapped, reclose, end of hold-off, swap start, restart, thermal resume,
 return from undervoltage.
+
+Time base
+---------
+Every instant a machine reports (its deadlines and the instants of its
+events) lies on the run's 1 ns grid (:func:`sim.timebase.snap_s`): each
+candidate transition instant is snapped before the earliest is chosen, so two
+transitions within rounding of each other meet at one instant and the tie
+order above decides, and the machine's clock never runs ahead of the engine's
+(which schedules on the same grid). ``defer(t_s)`` moves a machine's clock on
+without acting: the transitions due before ``t_s`` then happen at ``t_s``
+(the engine's zero-time oscillation guard, :mod:`sim.world.engine`).
 """
 from __future__ import annotations
 
@@ -58,6 +74,7 @@ from sim.devices.overcurrent import TripUnit
 from sim.devices.restart import RestartState
 from sim.devices.sensing import T_TOL_S, check_observation_time
 from sim.devices.thermal import ThermalReplica
+from sim.timebase import snap_s
 
 #: Transitions processed in one ``advance`` before the machine declares a loop.
 MAX_TRANSITIONS = 100_000
@@ -258,25 +275,38 @@ class ProtectionMachine:
         return t if t > c[0] else c[0]      # max(c[0], t)
 
     def advance(self, t_s: float) -> list[DeviceEvent]:
-        """Perform every transition due at or before ``t_s``; return their events."""
+        """Perform the transitions due at or before ``t_s``, up to and including the
+        first that changes the output (module doc); return their events."""
         if t_s < self._t - T_TOL_S:
             raise ValueError(f"{self.name}: advance({t_s!r}) is before the last time {self._t!r}")
+        t_s = snap_s(t_s)
         self._nc = _STALE
         events: list[DeviceEvent] = []
         for _ in range(MAX_TRANSITIONS):
             c = self._next()
-            if c is None or c[0] > t_s + T_TOL_S:
+            if c is None or c[0] > t_s:
                 self._nc = c        # the next transition of the state it leaves
                 break
-            tt = max(c[0], self._t)
+            tt = c[0] if c[0] > self._t else self._t
             self._t = tt
+            closed, swapped = self.closed, self.swapped
             _TRANSITIONS[c[2]](self, tt, events)
             self._refresh_closed()
             self._feed(tt)
+            if self.closed is not closed or self.swapped is not swapped:
+                break               # the engine must tell the new current first
         else:
             raise RuntimeError(f"{self.name}: more than {MAX_TRANSITIONS} transitions at one time")
-        self._t = max(self._t, t_s)
+        if t_s > self._t:
+            self._t = t_s
         return events
+
+    def defer(self, t_s: float) -> None:
+        """Move the clock to ``t_s`` without acting: transitions due before it
+        happen at ``t_s`` (the engine's zero-time oscillation guard)."""
+        t_s = snap_s(t_s)
+        if t_s > self._t:
+            self._t = t_s
 
     def reset(self, t_s: float) -> list[DeviceEvent]:
         """Operator reset: close a tripped or given-up output, count tries from zero.
@@ -373,8 +403,9 @@ class ProtectionMachine:
         self.sense_unit.update(t_s, sense_in)
 
     def _next(self):
-        """``(t, priority, kind)`` of the next transition (the earliest; at one
-        instant the lowest priority, the tie order of the module doc), or ``None``.
+        """``(t, priority, kind)`` of the next transition (the earliest on the 1 ns
+        grid; at one instant the lowest priority, the tie order of the module
+        doc), or ``None``.
 
         Candidates are visited in priority order and only a strictly earlier
         one replaces the best, which is ``min`` over ``(t, priority)`` without
@@ -384,42 +415,42 @@ class ProtectionMachine:
         best = None
         d = self._t_uv_drop
         if d is not None:
-            best_t, best = d, _K_DROPOUT
+            best_t, best = snap_s(d), _K_DROPOUT
         rep = self.replica
         if rep is not None and not self._thermal_open:
             d = rep.trip_deadline_s()
-            if d is not None and (best_t is None or d < best_t):
-                best_t, best = d, _K_THERMAL_TRIP
+            if d is not None and (best_t is None or snap_s(d) < best_t):
+                best_t, best = snap_s(d), _K_THERMAL_TRIP
         d = self._timer.due_s()
-        if d is not None and (best_t is None or d < best_t):
-            best_t, best = d, _K_TRIP
+        if d is not None and (best_t is None or snap_s(d) < best_t):
+            best_t, best = snap_s(d), _K_TRIP
         if self.swap is not None:
             mode = self._mode
             if mode == "swapping":
                 d = self._t_swap_end
-                if best_t is None or d < best_t:
-                    best_t, best = d, _K_SWAPPED
+                if best_t is None or snap_s(d) < best_t:
+                    best_t, best = snap_s(d), _K_SWAPPED
             elif mode == "dead":
                 d = self._t_reclose
-                if best_t is None or d < best_t:
-                    best_t, best = d, _K_RECLOSE
+                if best_t is None or snap_s(d) < best_t:
+                    best_t, best = snap_s(d), _K_RECLOSE
             elif mode == "hold" and not self._hold_extended:
                 d = self._t_hold_end
-                if best_t is None or d < best_t:
-                    best_t, best = d, _K_HOLD_END
+                if best_t is None or snap_s(d) < best_t:
+                    best_t, best = snap_s(d), _K_HOLD_END
             d = self.sense_unit.timer.due_s()
-            if d is not None and (best_t is None or d < best_t):
-                best_t, best = d, _K_SWAP_START
+            if d is not None and (best_t is None or snap_s(d) < best_t):
+                best_t, best = snap_s(d), _K_SWAP_START
         d = self._t_restart
-        if d is not None and (best_t is None or d < best_t):
-            best_t, best = d, _K_RESTART
+        if d is not None and (best_t is None or snap_s(d) < best_t):
+            best_t, best = snap_s(d), _K_RESTART
         if rep is not None and self._thermal_open:
             d = rep.resume_deadline_s()
-            if d is not None and (best_t is None or d < best_t):
-                best_t, best = d, _K_THERMAL_RESUME
+            if d is not None and (best_t is None or snap_s(d) < best_t):
+                best_t, best = snap_s(d), _K_THERMAL_RESUME
         d = self._t_uv_return
-        if d is not None and (best_t is None or d < best_t):
-            best_t, best = d, _K_UV_RETURN
+        if d is not None and (best_t is None or snap_s(d) < best_t):
+            best_t, best = snap_s(d), _K_UV_RETURN
         return None if best is None else (best_t,) + best
 
     def _cancel_swap(self) -> None:

@@ -33,6 +33,7 @@ from typing import Optional
 from sim.model import Supply
 from sim.devices.events import DeviceEvent
 from sim.devices.sensing import T_TOL_S, check_observation_time
+from sim.timebase import snap_s
 
 _LIMIT_REL = 1e-9
 
@@ -129,11 +130,11 @@ class SupplyDevice:
                 if want != self.limiting:
                     return (self._t, 0, "limit")
                 if self.limiting and not self._cc:
-                    return (self._t_limit_since + self.t_limit_s, 1, "off")
+                    return (snap_s(self._t_limit_since + self.t_limit_s), 1, "off")
             elif want:
                 return (self._t, 1, "off")
         elif self._t_on is not None:
-            return (self._t_on, 2, "on")
+            return (snap_s(self._t_on), 2, "on")
         return None
 
     def next_deadline(self) -> Optional[float]:
@@ -150,14 +151,16 @@ class SupplyDevice:
         return nd
 
     def advance(self, t_s: float) -> list[DeviceEvent]:
+        """Perform the next transition due at or before ``t_s`` (each one changes the
+        supply's output, so it stops after one: the engine must solve again, as
+        in :mod:`sim.devices.machine`); return its events."""
         if t_s < self._t - T_TOL_S:
             raise ValueError(f"{self.name}: advance({t_s!r}) is before the last time {self._t!r}")
+        t_s = snap_s(t_s)
         self._nd = _STALE
         events: list[DeviceEvent] = []
-        for _ in range(1000):
-            c = self._next()
-            if c is None or c[0] > t_s + T_TOL_S:
-                break
+        c = self._next()
+        if c is not None and c[0] <= t_s:
             t = max(c[0], self._t)
             self._t = t
             if c[2] == "limit":
@@ -182,10 +185,16 @@ class SupplyDevice:
                 self._t_on = None
                 self.on = True
                 events.append(DeviceEvent(t, self.name, "on", {}))
-        else:
-            raise RuntimeError(f"{self.name}: too many transitions at one time")
-        self._t = max(self._t, t_s)
+        if t_s > self._t:
+            self._t = t_s
         return events
+
+    def defer(self, t_s: float) -> None:
+        """Move the clock to ``t_s`` without acting (as :meth:`ProtectionMachine.defer`)."""
+        t_s = snap_s(t_s)
+        if t_s > self._t:
+            self._t = t_s
+            self._nd = _STALE
 
     def reset(self, t_s: float) -> list[DeviceEvent]:
         """Operator reset: an off supply comes on at once."""

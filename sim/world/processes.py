@@ -285,16 +285,28 @@ class TrainRun:
     def replan(self, t_s: float, cause) -> None:
         """Interrupted by the world after a motion change: nothing to do but sleep anew."""
 
-    def _reconcile(self, t_s: float) -> None:
+    def _reconcile(self, t_s: float, stopping: bool = False) -> None:
         """Set the bridges on just after ``t_s``, clear the others.
 
         The instant is taken to the engine's 1 ns resolution: a bridge whose
         recomputed start lies within 1 ns after ``t_s`` (float rounding of a
         re-planned motion) is on now, so a re-plan never drops and re-adds
         the bridge that triggered it.
+
+        With ``stopping`` (the train stands still from ``t_s`` on) every bridge
+        that is on at ``t_s`` stays on: a train stands on the bridges it has
+        reached. The motion's time form puts a span's start where the front
+        *leaves* ``s_on_m``, so a train that stops at the very instant a bridge
+        comes on - a locomotive without keep-alive whose own bridge takes its
+        power - would otherwise drop that bridge, get its power back, move on,
+        bridge again and lose its power again, without end at one instant.
         """
         w = self.world
         want = {self._key(b): b for b in self.motion.active_bridges(t_s + T_TOL_S)}
+        if stopping:
+            for key, b in self.bridges.items():
+                if key not in want and b.t_on_s <= t_s + T_TOL_S < b.t_off_s:
+                    want[key] = b
         for key in [k for k in self.bridges if k not in want]:
             del self.bridges[key]
             w.clear_bridge(key)
@@ -353,7 +365,7 @@ class TrainRun:
             self.stopped = self.t_stop_s <= t_s
             if self.stopped:
                 w.record_train(t_s, self.name, "stop")
-        self._reconcile(t_s)
+        self._reconcile(t_s, stopping=self.stopped)
         self.pending = m.next_bridge_events(t_s + T_TOL_S)
         self.k = 0
         if self.proc is not None and self.proc.is_alive:
