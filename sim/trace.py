@@ -170,17 +170,40 @@ class EventSummary:
 
 
 # --------------------------------------------------------------- episodes
+#: Outcomes of an episode (the results contract).
+OUTCOMES = ("clean", "swapped", "tripped", "dropout", "unresolved")
+
+
 @dataclass
 class Episode:
     """One short (or overload) episode, as the results contract lists it.
 
+    The rules that fill it are those of :mod:`sim.world.episodes`.
+
     ``kind`` is ``gap`` (wheels bridging mismatched rails), ``fault`` (a
-    scenario short) or ``overload`` (a device tripped with no short path
-    open). ``outcome`` is ``clean`` (the current stopped with no device
-    acting), ``swapped`` (a swap interrupted it), ``tripped`` (a device
-    tripped) or ``unresolved`` (still flowing at the end, or swapped again and
-    again without clearing). ``margins`` maps each upstream device to
-    ``t_trip - t_cleared`` in seconds; ``margin_s`` is the least of them.
+    scenario short) or ``overload`` (a device tripped, dropped out or let a
+    current over its trip level through with no short open). ``start_s`` is
+    the onset, ``end_s`` when the short current stopped (``None``: still
+    flowing at the end). ``outcome`` is ``clean`` (the current stopped with no
+    device acting), ``swapped`` (a swap interrupted it), ``tripped`` (a device
+    tripped, or a supply switched off: ``acted`` names it), ``dropout``
+    (boosters dropped out on undervoltage: ``acted`` names their supply) or
+    ``unresolved`` (still flowing at the end, swapped again and again without
+    clearing, or stopped by the engine's zero-time guard: see ``note``).
+
+    ``peak_a`` is the total current through the short (the sum over its
+    bridging paths and rails, what an upstream device carries), ``paths_a``
+    the peak of each rail path; ``devices`` the devices that carried it, from
+    the track upwards; ``tripped`` each of them that tripped, dropped out or
+    switched off in it, with its first instant; ``i2t_a2s`` the let-through
+    ``integral I^2 dt`` of the episode in A^2 s. ``margins`` maps a device to
+    ``t_trip - t_cleared`` in seconds: positive or negative for a device that
+    did not trip, only negative (or zero) for one that tripped first;
+    ``margin_s`` is the least of them.
+
+    ``swaps``, ``t_cleared_s`` and ``overruns`` (the over-threshold runs of
+    :func:`sim.world.episodes.overrun_findings`) are kept for the findings and
+    are not part of the JSON.
     """
 
     start_s: float
@@ -196,16 +219,29 @@ class Episode:
     margin_s: Optional[float] = None
     swaps: int = 0
     t_cleared_s: Optional[float] = None
+    paths_a: dict = field(default_factory=dict)
+    devices: list = field(default_factory=list)
+    tripped: dict = field(default_factory=dict)
+    i2t_a2s: float = 0.0
+    note: str = ""
+    overruns: list = field(default_factory=list)
 
     def as_dict(self) -> dict:
-        return {
+        d = {
             "start_s": _num(self.start_s), "end_s": _num(self.end_s),
             "kind": self.kind, "where": self.where, "train": self.train,
             "peak_a": _num(self.peak_a), "outcome": self.outcome,
             "acted": self.acted, "acted_s": _num(self.acted_s),
             "margins": {k: _num(v) for k, v in sorted(self.margins.items())},
             "margin_s": _num(self.margin_s),
+            "paths_a": {k: _num(v) for k, v in sorted(self.paths_a.items())},
+            "devices": list(self.devices),
+            "tripped": {k: _num(v) for k, v in sorted(self.tripped.items())},
+            "i2t_a2s": _num(self.i2t_a2s),
         }
+        if self.note:
+            d["note"] = self.note
+        return d
 
 
 # ---------------------------------------------------------------- devices
@@ -241,7 +277,11 @@ class Result:
     ``events`` is the full event list when the run kept events
     (``keep_events=True``), else ``None``; ``summary`` is always there.
     ``t_end_s`` is where the run stopped (``until_s`` or the scenario's
-    duration). ``stats`` holds engine counters (events handled, solves).
+    duration; earlier when it reached its event budget or could not go on,
+    with a finding saying so). ``stats`` holds engine counters (events
+    handled, solves) and ``event_budget``, the most engine events the run
+    could take. ``headline`` lists the worst problems first, one line per
+    cause (filled by the run's diagnosis).
     """
 
     title: str
@@ -258,6 +298,7 @@ class Result:
     t_end_s: float = 0.0
     t_margin_required_s: float = 0.0
     stats: dict = field(default_factory=dict)
+    headline: list = field(default_factory=list)
 
     @property
     def passed(self) -> bool:
@@ -284,6 +325,9 @@ class Result:
                          for f in self.findings],
             "episodes": [e.as_dict() for e in self.episodes],
             "devices": {n: s.as_dict() for n, s in sorted(self.devices.items())},
+            "headline": list(self.headline),
+            "t_end_s": _num(self.t_end_s),
+            "event_budget": self.stats.get("event_budget"),
         }
         if self.events is not None:
             d["events"] = [e.as_dict() for e in self.events]
@@ -305,9 +349,11 @@ def verdict_findings(episodes: Iterable[Episode], t_margin_required_s: float) ->
     for ep in episodes:
         at = f"{ep.where} at {ep.start_s:.6g} s"
         who = f" (train {ep.train})" if ep.train else ""
-        if ep.kind == "gap" and ep.outcome == "tripped":
+        acted = (f"dropped out the boosters of {ep.acted}" if ep.outcome == "dropout"
+                 else f"tripped {ep.acted}")
+        if ep.kind == "gap" and ep.outcome in ("tripped", "dropout"):
             out.append(Finding("error", "RF-RUN-001", ep.where,
-                               f"gap short at {at}{who} tripped {ep.acted} at "
+                               f"gap short at {at}{who} {acted} at "
                                f"{ep.acted_s:.6g} s", "make the reversing controller clear "
                                "faster than the upstream trip delay"))
         elif ep.outcome == "unresolved":
@@ -322,9 +368,9 @@ def verdict_findings(episodes: Iterable[Episode], t_margin_required_s: float) ->
             fix = ("make the reversing section longer than the longest train, or check the "
                    "polarity on both sides" if ep.kind == "gap" else "")
             out.append(Finding("error", code, ep.where, f"{what} at {at}{who} {how}", fix))
-        elif ep.outcome == "tripped":
+        elif ep.outcome in ("tripped", "dropout"):
             out.append(Finding("info", "RF-RUN-010", ep.where,
-                               f"{ep.kind} at {at} tripped {ep.acted} at {ep.acted_s:.6g} s"))
+                               f"{ep.kind} at {at} {acted} at {ep.acted_s:.6g} s"))
         if ep.margin_s is not None:
             if ep.margin_s < 0:
                 out.append(Finding("error", "RF-RUN-003", ep.where,

@@ -78,6 +78,13 @@ G_FOLD_MAX_S = 10.0
 KCL_RTOL = 1e-9
 
 
+def _g_supply_s(s) -> float:
+    """A supply's internal conductance, its resistance taken as at least
+    ``R_MIN_OHM`` (the floor of every switchable branch): a resistance of a few
+    femto-ohms or a denormal would make the conductance overflow."""
+    return 1.0 / max(float(s.r_ohm), R_MIN_OHM)
+
+
 class KirchhoffError(RailfaultError):
     """A solve whose node currents do not sum to zero (RF-CKT-004)."""
 
@@ -99,6 +106,14 @@ class Solution:
     over_limit: tuple = ()
     kcl_residual_a: float = 0.0
     method: str = "full"
+    #: Per bridge, the magnitude of the current over each gapped rail it joins
+    #: ``(first, second)`` in the order of the joint's rails (left, right for a
+    #: joint gapped on both; one value for a one-rail bridge). ``bridge_i_a`` is
+    #: the larger of them; a device feeding the bridge can carry their sum.
+    bridge_rail_i_a: Mapping[str, tuple] = field(default_factory=dict)
+    #: Whether Kirchhoff's law was met within its tolerance (a solve taken with
+    #: ``check=False`` reports a miss here instead of raising).
+    kcl_ok: bool = True
 
 
 def _lap(pairs):
@@ -210,7 +225,7 @@ class Circuit:
         for u, v, r in zip(topo.perm_a, topo.perm_b, topo.perm_r_ohm):
             branch(int(u), int(v), 1.0 / r)
         for s in topo.supplies.values():
-            branch(s.p, s.n, 1.0 / s.r_ohm)
+            branch(s.p, s.n, _g_supply_s(s))
         for d in topo.devices.values():
             branch(d.o_l, d.a, d.g_lead_s)
             branch(d.o_r, d.b, d.g_lead_s)
@@ -249,7 +264,7 @@ class Circuit:
         self._a0.sum_duplicates()
         src_nodes = [s.p for s in topo.supplies.values()] + [s.n for s in topo.supplies.values()]
         g_sw = [d.g_lead_s for d in topo.devices.values()] + [f.g_s for f in topo.feeders.values()]
-        g_sw += [1.0 / s.r_ohm for s in topo.supplies.values()]
+        g_sw += [_g_supply_s(s) for s in topo.supplies.values()]
         self.parts = PartTracker(n, topo.perm_a, topo.perm_b, self.base_anchors, src_nodes,
                                  G_ANCHOR_S, G_ANCHOR_S)
         # outputs: device terminals and supply nodes
@@ -270,7 +285,7 @@ class Circuit:
         self._sup_pos = {k: i for i, k in enumerate(self._sup_names)}
         sups = [topo.supplies[k] for k in self._sup_names]
         self._sq = np.array([[qpos[s.p], qpos[s.n]] for s in sups], dtype=np.int64).reshape(len(sups), 2)
-        self._sg = np.array([1.0 / s.r_ohm for s in sups])
+        self._sg = np.array([_g_supply_s(s) for s in sups])
         inj = np.zeros((n, len(sups)))
         for i, s in enumerate(sups):
             inj[s.p, i] += 1.0
@@ -659,8 +674,14 @@ class Circuit:
             findings.extend(hit[1])
         return floating
 
-    def solve(self) -> Solution:
-        """Full sparse solve of the present state, part by part."""
+    def solve(self, check: bool = True) -> Solution:
+        """Full sparse solve of the present state, part by part.
+
+        With ``check`` False a solve that misses Kirchhoff's law is returned
+        with ``kcl_ok`` False instead of raising :class:`KirchhoffError` (the
+        engine's last resort; see :mod:`sim.world.engine`, Solves). A part that
+        cannot be factored still raises :class:`SingularUpdate`.
+        """
         items, seg_out, st, group_of = self._changes()
         findings: list = []
         j = self._sources(st, group_of, findings)
@@ -691,10 +712,13 @@ class Circuit:
         scale = max(float(branch.max()) if branch.size else 0.0, float(np.max(np.abs(j))) if j.size else 0.0)
         resid = float(np.max(np.abs(res))) if n else 0.0
         terms = float(np.max(np.abs(fc.data) * np.abs(x[fc.col]))) if fc.nnz else 0.0
-        self._check_kcl(resid, scale, terms)
+        if not np.all(np.isfinite(x)):
+            raise SingularUpdate("the network's solution is not finite")
+        if check:
+            self._check_kcl(resid, scale, terms)
         vq = x[self.q_nodes]
         return self._solution(vq, lambda nodes: x[np.asarray(nodes, dtype=np.int64)], seg_out, st, group_of, floating,
-                              j, findings, resid, "full")
+                              j, findings, resid, "full", None if check else (scale, terms))
 
     def update(self) -> Solution:
         """The present state's solution by low-rank updates of the base (module docstring).
@@ -831,14 +855,20 @@ class Circuit:
         full.eliminate_zeros()
         return full
 
+    @staticmethod
+    def _kcl_met(resid: float, scale: float, terms: float = 0.0) -> bool:
+        """Whether ``resid <= 1e-9 * scale + 64 eps * terms`` (module docstring)."""
+        return bool(resid <= KCL_RTOL * scale + 64.0 * np.finfo(float).eps * terms + 1e-300)
+
     def _check_kcl(self, resid: float, scale: float, terms: float = 0.0) -> None:
         """Raise unless ``resid <= 1e-9 * scale + 64 eps * terms`` (module docstring)."""
-        if resid > KCL_RTOL * scale + 64.0 * np.finfo(float).eps * terms + 1e-300:
+        if not self._kcl_met(resid, scale, terms):
             raise KirchhoffError(
                 f"RF-CKT-004: Kirchhoff's current law violated: residual {resid:.3e} A "
                 f"against a largest current of {scale:.3e} A")
 
-    def _solution(self, vq, vget, seg_out, st, group_of, floating, j, findings, resid, method):
+    def _solution(self, vq, vget, seg_out, st, group_of, floating, j, findings, resid, method,
+                  check_scale=None):
         dq = self._dq
         g = self._dg
         sw = self._swapped
@@ -867,6 +897,7 @@ class Circuit:
         over = tuple(self._sup_names[i] for i in np.nonzero(~cc & (isup > self._sup_limit))[0])
 
         br = {}
+        br_rails: dict = {}
         if self.bridges:
             bkeys = list(self.bridges)
             flat = [(b[3][0][0], b[3][0][1], b[3][-1][0], b[3][-1][1], b[2])
@@ -874,10 +905,17 @@ class Circuit:
             bd = np.array(flat)
             bn = bd[:, :4].astype(np.int64)
             vv = vget(bn.ravel()).reshape(len(bkeys), 4)
-            cur = np.maximum(np.abs(vv[:, 0] - vv[:, 1]), np.abs(vv[:, 2] - vv[:, 3])) * bd[:, 4]
+            c0 = np.abs(vv[:, 0] - vv[:, 1]) * bd[:, 4]
+            c1 = np.abs(vv[:, 2] - vv[:, 3]) * bd[:, 4]
             if floating:
-                cur[fl[st.comp_of_block[self.parts.block_of_node[bn[:, 0]]]]] = 0.0
+                off_b = fl[st.comp_of_block[self.parts.block_of_node[bn[:, 0]]]]
+                c0[off_b] = 0.0
+                c1[off_b] = 0.0
+            cur = np.maximum(c0, c1)
             br = dict(zip(bkeys, cur.tolist()))
+            two = [len(b[3]) > 1 for b in self.bridges.values()]
+            br_rails = {k: ((a, b) if t else (a,))
+                        for k, a, b, t in zip(bkeys, c0.tolist(), c1.tolist(), two)}
         out = {}
         for is_short, tid in ((False, 1), (True, 2)):
             rows = self._rows[tid]
@@ -898,8 +936,11 @@ class Circuit:
         scale = max(max(dev_vals, default=0.0), max(map(abs, isup_l), default=0.0),
                     max(br.values(), default=0.0), max(out[False][1].values(), default=0.0),
                     max(out[True][1].values(), default=0.0), 0.0)
+        kcl_ok = True
         if method == "incremental":
             self._check_kcl(resid, scale, self._kcl_terms)
+        elif check_scale is not None:
+            kcl_ok = self._kcl_met(resid, check_scale[0], check_scale[1])
         mp = MappingProxyType
         return Solution(
             device_i_a=mp(dev_i), device_lead_i_a=mp(dev_lead),
@@ -907,7 +948,8 @@ class Circuit:
             supply_v_v=mp(dict(zip(self._sup_names, vt.tolist()))),
             bridge_i_a=mp(br), load_v_v=mp(out[False][0]), load_i_a=mp(out[False][1]),
             short_i_a=mp(out[True][1]), short_v_v=mp(out[True][0]),
-            findings=tuple(findings), over_limit=over, kcl_residual_a=resid, method=method)
+            findings=tuple(findings), over_limit=over, kcl_residual_a=resid, method=method,
+            bridge_rail_i_a=mp(br_rails), kcl_ok=kcl_ok)
 
     # ------------------------------------------------------------ limits
     def update_limited(self, full: bool = False) -> Solution:

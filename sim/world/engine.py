@@ -104,13 +104,15 @@ from typing import Optional
 
 import numpy as np
 
+from sim.circuit.incremental import SingularUpdate
 from sim.circuit.network import KirchhoffError
 from sim.model import Finding, Scenario
+from sim.timebase import T_MIN_S, snap_s
 from sim.trace import (DeviceSummary, Event, EventSummary, Result, decide, verdict_findings,
                        SUPPLY_TRIP_EVENTS, TRIP_EVENTS)
-from sim.world.episodes import I_FLOOR_A, EpisodeTracker, ShortPath
-from sim.world.processes import (T_DIGITS, Env, DeviceDriver, TrainRun, action_process,
-                                 build_runs, fault_process)
+from sim.world.episodes import EpisodeTracker, ShortPath, overrun_findings
+from sim.world.processes import (Env, DeviceDriver, TrainRun, action_process, build_runs,
+                                 fault_process)
 
 #: Device events after which the output closes on a discharged layout (inrush).
 INRUSH_EVENTS = frozenset({"restart", "reset", "thermal_resume"})
@@ -127,10 +129,19 @@ CACHE_MAX = 4096
 #: emptied: a large layout's solutions are large, and most states of a layout with
 #: many trains are never seen twice (about 100 bytes a value: some 100 MB at most).
 CACHE_MAX_VALUES = 1_000_000
-#: Most passes of one settle before the engine declares a loop.
-MAX_PASSES = 100_000
-#: Most settles at one instant before the engine declares a loop.
+#: Most passes of one settle before the engine declares a loop it cannot hold
+#: (the run then stops there with RF-RUN-024).
+MAX_PASSES = 20_000
+#: Most settles at one instant before the engine declares such a loop.
 MAX_SETTLES_PER_INSTANT = 10_000
+#: Output changes of one device at one instant after which it is in a zero-time
+#: oscillation and the guard holds it (RF-RUN-022).
+OSC_CHANGES = 8
+#: Engine events (simpy events processed) a run may take by default: a run that
+#: reaches its budget stops there with RF-RUN-023. The development machine takes
+#: some 15,000 to 50,000 a second, so this is a few minutes of work at most; a
+#: generated hour of 200 sections and 30 trains takes about 4,000.
+EVENT_BUDGET = 2_000_000
 
 #: Digests of state items kept before the memo is emptied.
 DIGESTS_MAX = 100_000
@@ -159,16 +170,20 @@ class World:
         Keep every event (``--events``); otherwise only the bounded summary.
     layout, circuit, devices, trains :
         Pre-built parts (tests and benchmarks); built from ``scn`` when ``None``.
+    event_budget : int
+        The most engine events the run may take (:data:`EVENT_BUDGET`).
     """
 
     def __init__(self, scn: Scenario, until_s: Optional[float] = None,
                  keep_events: bool = False, layout=None, circuit=None, devices=None,
-                 plans=None):
+                 plans=None, event_budget: int = EVENT_BUDGET):
         from sim.layout import build_layout
         from sim.circuit import build_circuit
 
         self.scn = scn
         self.t_end_s = float(scn.duration_s if until_s is None else until_s)
+        self.event_budget = int(event_budget)
+        self.n_steps = 0                      # engine events processed
         self.env = Env()
         self.never = self.env.event()
         self.summary = EventSummary(keep_events)
@@ -197,7 +212,11 @@ class World:
         self._dark_s: dict[str, float] = {n: 0.0 for n in self.drivers}
         self._out: dict[str, tuple] = {}
         self.paths: dict = {}                 # circuit key -> ShortPath (existing paths)
-        self.joint_paths: dict = {}           # joint index -> (name, short threshold in A)
+        self.joint_paths: dict = {}           # joint index -> (name, devices feeding it)
+        self._osc_t = -1.0                    # instant of the output-change counts
+        self._osc_n: dict[str, int] = {}      # device -> output changes at that instant
+        self._frozen: dict = {}               # held driver -> (instant held, times held)
+        self.n_degraded = 0                   # full solves that missed Kirchhoff's law
         self.n_solves = 0
         self.n_full_solves = 0
         self.t_circuit_s = 0.0
@@ -209,10 +228,13 @@ class World:
         self.record = self.summary.record     # bound once: called for every event
         rated = {n: scn.device(n).thermal.i_rated_a for n in self.drivers
                  if self.kinds[n] != "supply" and getattr(scn.device(n), "thermal", None)}
+        supply_of = {b: bo.supply for b, bo in scn.boosters.items()}
         self.tracker = EpisodeTracker(self._would_trip, self._t_swap_of,
-                                      chain=self._chain_of,
-                                      device_threshold_a=self._thr_dev,
-                                      device_rated_a=rated)
+                                      sense_threshold_a=self._sense_thr,
+                                      supplies=self.supply_names,
+                                      trip_threshold_a=self._thr_dev,
+                                      allow_s=self._allow, rated_a=rated,
+                                      supply_of=supply_of, order=self.order)
         self.findings: list[Finding] = []
         self._init_trains(plans)
 
@@ -279,19 +301,33 @@ class World:
                 self._t_swap[n] = rec.t_swap_s
             elif kinds[n] == "booster" and rec.reverse_on_short:
                 self._t_swap[n] = rec.t_swap_s
+        from sim.checks.coordination import latest_trip_s
+
+        # the onset threshold of each device (episodes: its sense level or trip
+        # level, a supply's limit) and how long it may carry more than its trip
+        # level before a definite-time trip (sampling counted, and for a swapping
+        # device its sense delay and swap time before that)
         self._sense_thr: dict[str, float] = {}
+        self._allow: dict[str, float] = {}
         for n in names:
             rec = scn.device(n)
+            if kinds[n] == "supply":
+                if math.isfinite(rec.i_limit_a):
+                    self._sense_thr[n] = rec.i_limit_a
+                continue
+            period = rec.sense.period_s
+            allow = latest_trip_s(rec.trip.t_after_s, period)
             if kinds[n] == "reverser":
                 self._sense_thr[n] = min(rec.sense_above_a, rec.trip.i_above_a)
-            elif kinds[n] in ("booster", "breaker"):
+                allow += latest_trip_s(rec.t_sense_s, period) + rec.t_swap_s
+            else:
                 lo = rec.trip.i_above_a
-                if kinds[n] == "booster" and rec.reverse_on_short and rec.sense_reverse_a:
-                    lo = min(lo, rec.sense_reverse_a)
+                if kinds[n] == "booster" and rec.reverse_on_short:
+                    if rec.sense_reverse_a:
+                        lo = min(lo, rec.sense_reverse_a)
+                    allow += latest_trip_s(rec.t_sense_reverse_s, period) + rec.t_swap_s
                 self._sense_thr[n] = lo
-
-    def _chain_of(self, dev: str) -> tuple:
-        return self._chains.get(dev, ())
+            self._allow[n] = allow
 
     def _t_swap_of(self, dev: str) -> Optional[float]:
         return self._t_swap.get(dev)
@@ -318,10 +354,11 @@ class World:
             return None
         return t_s + dt
 
-    def path_threshold_a(self, chains: list[tuple]) -> float:
-        """Short threshold of a path fed through the given device chains (>= 0.5 A)."""
-        vals = [self._sense_thr[d] for ch in chains for d in ch if d in self._sense_thr]
-        return max(I_FLOOR_A, min(vals)) if vals else I_FLOOR_A
+    def path_devices(self, chains: list[tuple]) -> tuple:
+        """The devices feeding a short path through the given feed chains, from the
+        track upwards (the tie-break order), each once."""
+        devs = {d for ch in chains for d in ch if d in self.drivers}
+        return tuple(sorted(devs, key=lambda d: self.drivers[d].rank))
 
     # ----------------------------------------------------------- trains
     def _init_trains(self, plans) -> None:
@@ -421,7 +458,7 @@ class World:
                 self.circuit.set_short(key, fault.section, fault.at_m, fault.r_ohm)
                 chain = self.layout.device_chain(fault.section)
                 self.paths[key] = ShortPath(key, ("fault", index), "fault", where, None,
-                                            self.path_threshold_a([chain]))
+                                            self.path_devices([chain]))
                 self._put(("s", key), (fault.section, fault.at_m, fault.r_ohm))
                 self.record(Event(t, where, "fault", {"r_ohm": fault.r_ohm}))
             else:
@@ -486,8 +523,7 @@ class World:
         if t == self._t_settle:
             self._n_same += 1
             if self._n_same > MAX_SETTLES_PER_INSTANT:
-                raise RuntimeError(f"the world does not settle at t = {t!r} s: more than "
-                                   f"{MAX_SETTLES_PER_INSTANT} settles at one instant")
+                self._not_settling(t)
         else:
             self._t_settle, self._n_same = t, 0
         due = self._due
@@ -500,6 +536,8 @@ class World:
                     self._episode_pass = False
                     for e in self.tracker.close_settled(t):
                         self.record(e)
+                if self._frozen:
+                    self._release(t)
                 self._settle_ev = None
                 return
             if len(due) == 1:
@@ -511,9 +549,8 @@ class World:
             if f is None or f > t:                        # not due at this instant
                 drv.arm()
                 continue
-            d = drv.armed_s
             drv.armed_s = drv.fire_s = None
-            evs = drv.dev.advance(d if d > t else t)      # max(t, d)
+            evs = drv.dev.advance(t)                      # (deadlines are on the 1 ns grid)
             inrush = False
             for e in evs:
                 self._device_event(e)
@@ -523,7 +560,96 @@ class World:
                         k == "reclose" and e.data.get("cause") == "undervoltage")
             self._apply_output(drv, inrush)
             drv.arm()
-        raise RuntimeError(f"no progress at t = {t!r} s after {MAX_PASSES} settle passes")
+        self._not_settling(t)
+
+    # ---------------------------------------------------- zero-time guard
+    def _count_change(self, drv: DeviceDriver, t: float) -> None:
+        """Count an output change of ``drv`` at ``t``; hold it when it oscillates."""
+        if t != self._osc_t:
+            self._osc_t = t
+            self._osc_n = {}
+        n = self._osc_n[drv.name] = self._osc_n.get(drv.name, 0) + 1
+        if n >= OSC_CHANGES:
+            self._hold(drv, t)
+
+    def _hold(self, drv: DeviceDriver, t: float) -> None:
+        """The zero-time oscillation guard (module doc): hold ``drv`` as it is.
+
+        A device whose output changed :data:`OSC_CHANGES` times at one instant
+        acts on a current its own changes keep changing, without time passing
+        (zero swap, dead and hold-off times, two reversers or a self-reversing
+        booster fighting over one short). Physically it would chatter until
+        something upstream acts; the engine holds its output as it is, records
+        RF-RUN-022 naming every device that changed at that instant, and marks
+        the episodes holding them ``unresolved``. The device is released once
+        no open episode holds it (at a later instant); held a second time, it
+        stays held for the rest of the run.
+        """
+        since, times = self._frozen.get(drv, (t, 0))
+        drv.held = True
+        drv._ev = None
+        drv.armed_s = drv.fire_s = None
+        self._due.discard(drv)
+        self._frozen[drv] = (t, times + 1)
+        who = sorted((d for d, n in self._osc_n.items() if n >= 2), key=lambda d: (
+            self.drivers[d].rank, d)) or [drv.name]
+        for_good = times >= 1
+        note = (f"zero-time oscillation at {t:.9g} s: "
+                + ", ".join(f"{d} changed its output {self._osc_n.get(d, 0)} times" for d in who)
+                + " without time passing; "
+                f"{drv.name} is held as it is "
+                + ("for the rest of the run" if for_good else
+                   "until the current it acts on stops"))
+        self.findings.append(Finding(
+            "error", "RF-RUN-022", drv.name,
+            note + " (its swap, dead and hold-off times add up to zero, or devices fight "
+            "over one short)",
+            "give the swapping devices non-zero swap, dead and hold-off times (a real switch "
+            "takes time), and let one device only reverse each section"))
+        self.tracker.force_unresolved(t, who, note)
+
+    def _release(self, t: float) -> None:
+        """Release the held devices that no open episode holds any more (at a later
+        instant than the one they were held at, and held once only)."""
+        for drv, (since, times) in list(self._frozen.items()):
+            if times >= 2 or t <= since or self.tracker.involved(drv.name):
+                continue
+            del self._frozen[drv]
+            drv.held = False
+            drv.dev.defer(t)
+            drv.arm()
+
+    def _not_settling(self, t: float) -> None:
+        """The instant does not settle and no device oscillates: stop the run here.
+
+        Finds what keeps changing (the circuit-state items that differ from one
+        pass to the next over a few more passes) for the finding (RF-RUN-024).
+        """
+        seen: dict = {}
+        due = self._due
+        for _ in range(64):
+            before = dict(self._state)
+            if self._dirty:
+                self._solve_and_observe(t)
+            elif due:
+                drv = min(due, key=_rank)
+                due.discard(drv)
+                drv.armed_s = drv.fire_s = None
+                for e in drv.dev.advance(t):
+                    self._device_event(e)
+                self._apply_output(drv)
+                drv.arm()
+            else:
+                break
+            for k in set(before) | set(self._state):
+                if before.get(k) != self._state.get(k):
+                    seen[k] = seen.get(k, 0) + 1
+        what = ", ".join(sorted({_describe_key(k) for k in seen})) or "nothing in the circuit"
+        raise _StopRun(Finding(
+            "error", "RF-RUN-024", "world",
+            f"the run stopped at {t:.9g} s: that instant does not settle (a zero-time loop "
+            f"the engine cannot hold; changing: {what}); what follows it is not simulated",
+            "report this layout to the railfault developers"))
 
     def _solve(self):
         self.n_solves += 1
@@ -536,12 +662,11 @@ class World:
         t0 = time.perf_counter()
         try:
             sol = self.circuit.update()
-        except KirchhoffError:
-            # the incremental update's own Kirchhoff check failed (a
-            # near-zero-current state can trip its relative tolerance):
-            # solve in full, which checks Kirchhoff's law again
+        except (KirchhoffError, SingularUpdate):
+            # the incremental update failed its own Kirchhoff check or met an
+            # ill-conditioned change: solve the state in full
             self.n_full_solves += 1
-            sol = self.circuit.solve()
+            sol = self._full_solve()
         self.t_circuit_s += time.perf_counter() - t0
         # (each device, supply, load and short has two values: current and lead
         # currents, current and voltage)
@@ -552,6 +677,33 @@ class World:
             self._cache_values = 0
         self._cache[key] = [sol, None]
         self._cache_values += weight
+        return sol
+
+    def _full_solve(self):
+        """The last resort of a solve (module doc, Solves): a full solve, checked;
+        one that misses Kirchhoff's law is used with RF-RUN-025; one that cannot
+        be had stops the run (RF-RUN-026)."""
+        t = self.env._now
+        try:
+            sol = self.circuit.solve(check=False)
+        except (SingularUpdate, ValueError, FloatingPointError, ArithmeticError) as exc:
+            raise _StopRun(Finding(
+                "error", "RF-RUN-026", "world",
+                f"the run stopped at {t:.9g} s: the circuit of that instant cannot be solved "
+                f"({exc}); what follows it is not simulated",
+                "check the resistances: a supply, wire or fault of (nearly) zero ohm in "
+                "series with another makes the network singular")) from None
+        if not sol.kcl_ok:
+            self.n_degraded += 1
+            if self.n_degraded == 1:
+                self.findings.append(Finding(
+                    "warning", "RF-RUN-025", "world",
+                    f"the circuit at {t:.9g} s was solved only to a Kirchhoff residual of "
+                    f"{sol.kcl_residual_a:.3g} A (its resistances span too many orders of "
+                    "magnitude for double precision): the figures of such instants are "
+                    "approximate",
+                    "give the supplies, wires and faults resistances within the trade's "
+                    "ranges"))
         return sol
 
     def _solve_supplies(self, t: float):
@@ -606,8 +758,10 @@ class World:
                     d = m.next_deadline()
                     # a transition the observation itself calls for (into or out of
                     # the limit), not a timer armed before that comes due now
-                    if d is not None and round(d, T_DIGITS) <= t and d != drv.armed_s:
-                        for e in m.advance(max(t, d)):
+                    if d is not None and d <= t and d != drv.armed_s:
+                        if drv.held:
+                            continue
+                        for e in m.advance(t):
                             self._device_event(e)
                         self._apply_output(drv)
                 drv.arm()
@@ -618,6 +772,9 @@ class World:
         return sol
 
     def _solve_and_observe(self, t: float) -> None:
+        if self._frozen:
+            for drv in self._frozen:           # held devices observe from here on
+                drv.dev.defer(t)
         self._dirty = False
         self._sup_changed = _NO_CHANGES
         sol = self._solve_supplies(t) if self._supply_rows else self._solve()
@@ -678,8 +835,8 @@ class World:
                 changed.update(sup_changed)
         # short paths -> episodes (closing waits for the settled instant)
         if self.paths or self.tracker.open_count:
-            currents = self._short_currents(sol)
-            for e in self.tracker.solution(t, currents, changed, close=False):
+            currents, rails = self._short_currents(sol)
+            for e in self.tracker.solution(t, currents, changed, close=False, rail_i_a=rails):
                 self.record(e)
             # the closing call once the instant settles (same currents) can only
             # close an open episode whose paths carry no short current now
@@ -700,28 +857,38 @@ class World:
                 for tr in (sorted(todo) if len(todo) > 1 else todo):
                     runs[tr].check_power(t, sol)
 
-    def _short_currents(self, sol) -> dict:
-        """``{ShortPath: |I|}`` of every existing short path in ``sol``.
+    def _short_currents(self, sol) -> tuple:
+        """``({ShortPath: I}, {ShortPath: per-rail I})`` of every existing short path.
 
-        The paths that exist are part of the circuit state (their bridges and
-        fault shorts are items of it, and a path's record depends on its key
-        only), so the currents are kept per state key beside its cached
-        solution and made once per state.
+        ``I`` is the magnitude of a fault's current, or the sum of a bridge's
+        current over each rail it joins (what a device feeding it carries);
+        the per-rail currents are given for the bridges. The paths that exist
+        are part of the circuit state (their bridges and fault shorts are items
+        of it, and a path's record depends on its key only), so the currents
+        are kept per state key beside its cached solution and made once per
+        state.
         """
         ent = self._cache.get(self._sol_key)
         if ent is not None and ent[0] is not sol:
             ent = None
         if ent is not None and ent[1] is not None:
             return ent[1]
-        bi = sol.bridge_i_a
+        br = sol.bridge_rail_i_a
         si = sol.short_i_a
         currents = {}
+        rails = {}
         for k, path in self.paths.items():
-            i = (si if path.kind == "fault" else bi).get(k, 0.0)
-            currents[path] = i if i >= 0.0 else -i
+            if path.kind == "fault":
+                i = si.get(k, 0.0)
+                currents[path] = i if i >= 0.0 else -i
+            else:
+                r = br.get(k, (0.0,))
+                rails[path] = r
+                currents[path] = sum(r)
+        out = (currents, rails)
         if ent is not None:
-            ent[1] = currents
-        return currents
+            ent[1] = out
+        return out
 
     # ------------------------------------------------------- device output
     def _device_event(self, e) -> None:
@@ -753,6 +920,7 @@ class World:
                 self._put(("p", name), state)
                 self._dark(name, t, on)
                 self._out[name] = state
+                self._count_change(drv, t)
             return
         closed = m.closed
         swapped = m.swapped
@@ -764,6 +932,7 @@ class World:
         self.circuit.set_device(name, closed=closed, swapped=swapped)
         self._put(("d", name), (closed, swapped))
         self._dark(name, t, closed)
+        self._count_change(drv, t)
         if name in self._t_swap and (swapped != old[1] or (old[0] and not closed)):
             self.tracker.interrupt(t, name)
         if closed and not old[0] and inrush:
@@ -808,8 +977,44 @@ class World:
         self._mark_dirty()
         for drv in self.drivers.values():
             drv.arm()
-        env.run(until=self.t_end_s)     # events at exactly t_end are not played
+        try:
+            self._play()
+        except _StopRun as stop:
+            self.findings.append(stop.finding)
+            self.t_end_s = env._now
         return self._result(time.perf_counter() - wall0)
+
+    def _play(self) -> None:
+        """``env.run(until=t_end)`` within the event budget (events at exactly
+        ``t_end`` are not played); a run that reaches its budget stops there
+        (RF-RUN-023)."""
+        env = self.env
+        q = env._queue
+        step = env.step
+        t_end = self.t_end_s
+        n = self.n_steps
+        budget = self.event_budget
+        try:
+            while q and q[0][0] < t_end:
+                if n >= budget:
+                    raise _StopRun(self._budget_finding(q[0][0]))
+                step()
+                n += 1
+        finally:
+            self.n_steps = n
+        env._now = t_end
+
+    def _budget_finding(self, t: float) -> Finding:
+        """RF-RUN-023: where the run stopped on its event budget, and what was busiest."""
+        busiest = sorted(self.summary.entries.items(), key=lambda kv: -kv[1].count)[:3]
+        what = ", ".join(f"{dev} {kind} x{e.count:,}" for (dev, kind), e in busiest)
+        return Finding(
+            "error", "RF-RUN-023", "world",
+            f"the run stopped at {t:.9g} s of {self.t_end_s:.9g} s: it reached its budget of "
+            f"{self.event_budget:,} engine events" + (f" (most: {what})" if what else "")
+            + "; what follows is not simulated, so the run cannot pass",
+            "simulate a shorter time (--until), or look at the device or train that acts "
+            "so often")
 
     def _result(self, wall_s: float) -> Result:
         t_end = self.t_end_s
@@ -833,7 +1038,8 @@ class World:
                 dark_s=dark,
                 peak_a=float(getattr(m, "peak_a", 0.0) or 0.0),
                 max_thermal=None if tm is None else float(tm))
-        findings = list(self.findings) + verdict_findings(episodes, self.scn.t_margin_required_s)
+        findings = (list(self.findings) + overrun_findings(episodes)
+                    + verdict_findings(episodes, self.scn.t_margin_required_s))
         scn = self.scn
         return Result(
             title=scn.title, path=scn.path, sha256=scn.sha256, seed=scn.seed,
@@ -847,10 +1053,38 @@ class World:
                    "cache_hits": self.n_cache_hits, "full_solves": self.n_full_solves,
                    "settles": self.n_settles,
                    "changes": self.n_changes, "wall_s": wall_s,
-                   "circuit_s": self.t_circuit_s})
+                   "circuit_s": self.t_circuit_s, "engine_events": self.n_steps,
+                   "event_budget": self.event_budget, "degraded_solves": self.n_degraded})
 
 
-def run(scn: Scenario, until_s: Optional[float] = None, keep_events: bool = False) -> Result:
+class _StopRun(Exception):
+    """The run cannot go on (event budget, an instant that does not settle, a
+    circuit that cannot be solved): it stops at the present instant with
+    ``finding``, and its result says so."""
+
+    def __init__(self, finding: Finding):
+        super().__init__(finding.message)
+        self.finding = finding
+
+
+def _describe_key(key) -> str:
+    """A circuit-state key as a reader knows it (RF-RUN-024)."""
+    kind = key[0]
+    if kind == "d":
+        return f"device {key[1]}"
+    if kind == "p":
+        return f"supply {key[1]}"
+    if kind == "b":
+        return f"bridge of train {key[1][1]}" if isinstance(key[1], tuple) and \
+            len(key[1]) > 1 else "a bridge"
+    if kind == "l":
+        return f"load of train {key[1][1]}" if isinstance(key[1], tuple) and \
+            len(key[1]) > 1 else "a load"
+    return str(key)
+
+
+def run(scn: Scenario, until_s: Optional[float] = None, keep_events: bool = False,
+        event_budget: int = EVENT_BUDGET) -> Result:
     """Play a scenario and return its result.
 
     Parameters
@@ -862,6 +1096,9 @@ def run(scn: Scenario, until_s: Optional[float] = None, keep_events: bool = Fals
     keep_events : bool
         Keep every event in ``Result.events`` (``railfault run --events``);
         without it events are only summarised (bounded memory).
+    event_budget : int
+        The most engine events the run may take; a run that reaches it stops
+        there with a finding (RF-RUN-023). Stated in ``Result.stats``.
 
     Returns
     -------
@@ -874,4 +1111,5 @@ def run(scn: Scenario, until_s: Optional[float] = None, keep_events: bool = Fals
     >>> res.verdict                                        # doctest: +SKIP
     'pass'
     """
-    return World(scn, until_s=until_s, keep_events=keep_events).run()
+    return World(scn, until_s=until_s, keep_events=keep_events,
+                 event_budget=event_budget).run()

@@ -37,7 +37,7 @@ from typing import TYPE_CHECKING, Optional
 
 import simpy
 
-from sim.timebase import T_DIGITS, T_TOL_S  # noqa: F401  (re-exported)
+from sim.timebase import T_DIGITS, T_TOL_S, snap_s  # noqa: F401  (T_DIGITS re-exported)
 from sim.trace import Event
 
 if TYPE_CHECKING:  # pragma: no cover
@@ -103,7 +103,7 @@ class DeviceDriver:
         Its place in the tie-break order (lower acts first at one instant).
     """
 
-    __slots__ = ("world", "name", "dev", "rank", "armed_s", "fire_s", "_ev", "kind")
+    __slots__ = ("world", "name", "dev", "rank", "armed_s", "fire_s", "_ev", "kind", "held")
 
     def __init__(self, world: "World", name: str, dev, rank: int, kind: str):
         self.world = world
@@ -112,11 +112,14 @@ class DeviceDriver:
         self.rank = rank
         self.kind = kind
         self.armed_s: Optional[float] = None
-        self.fire_s: Optional[float] = None    # armed_s rounded to T_DIGITS
+        self.fire_s: Optional[float] = None    # armed_s on the 1 ns grid
         self._ev = None
+        self.held = False                      # held by the zero-time guard: not armed
 
     def arm(self) -> None:
         """(Re)schedule the device's next deadline, cancelling the armed one."""
+        if self.held:
+            return
         d = self.dev.next_deadline()
         if d == self.armed_s and (d is None or self._ev is not None):
             return
@@ -126,7 +129,7 @@ class DeviceDriver:
             self.fire_s = None
             return
         env = self.world.env
-        t_fire = self.fire_s = round(d, T_DIGITS)
+        t_fire = self.fire_s = snap_s(d)
         if t_fire <= env._now:
             self.world.mark_due(self)
             return
@@ -153,7 +156,7 @@ def train_process(world: "World", drv):
             if t_next is None:
                 yield world.never
             else:
-                yield env.timeout_at(round(t_next, T_DIGITS))
+                yield env.timeout_at(snap_s(t_next))
                 drv.apply_due(env.now)
         except simpy.Interrupt as intr:
             drv.replan(env.now, intr.cause)
@@ -163,10 +166,10 @@ def fault_process(world: "World", index: int, fault):
     """Apply one scenario fault at its instant (and end a timed short)."""
     env = world.env
     if fault.at_s > env.now:
-        yield env.timeout_at(round(fault.at_s, T_DIGITS))
+        yield env.timeout_at(snap_s(fault.at_s))
     world.apply_fault(index, fault, on=True)
     if fault.kind == "short" and fault.lasts_s is not None:
-        yield env.timeout_at(round(fault.at_s + fault.lasts_s, T_DIGITS))
+        yield env.timeout_at(snap_s(fault.at_s + fault.lasts_s))
         world.apply_fault(index, fault, on=False)
 
 
@@ -174,7 +177,7 @@ def action_process(world: "World", index: int, action):
     """Apply one operator action (a reset) at its instant."""
     env = world.env
     if action.at_s > env.now:
-        yield env.timeout_at(round(action.at_s, T_DIGITS))
+        yield env.timeout_at(snap_s(action.at_s))
     world.apply_action(index, action)
 
 
@@ -182,7 +185,7 @@ def pulse_process(world: "World", key, section: str, at_m: float, r_ohm: float,
                   t_pulse_s: float):
     """An inrush pulse: a load ``r_ohm`` for ``t_pulse_s`` (see the engine doc)."""
     world.set_load(key, section, at_m, r_ohm)
-    yield world.env.timeout_at(round(world.env.now + t_pulse_s, T_DIGITS))
+    yield world.env.timeout_at(snap_s(world.env.now + t_pulse_s))
     world.clear_load(key)
 
 
@@ -232,7 +235,7 @@ class TrainRun:
         from sim.world.episodes import ShortPath
 
         w = self.world
-        # the joint's name and threshold depend on the layout only: found once per joint
+        # the joint's name and devices depend on the layout only: found once per joint
         known = w.joint_paths.get(b.joint_index)
         if known is None:
             j = w.scn.track.joints[b.joint_index] if b.joint_index < len(w.scn.track.joints) \
@@ -240,9 +243,10 @@ class TrainRun:
             if j is None or j.index != b.joint_index:
                 j = next(x for x in w.scn.track.joints if x.index == b.joint_index)
             chains = [w.layout.device_chain(e.section) for e in j.ends]
-            known = w.joint_paths[b.joint_index] = (j.name, w.path_threshold_a(chains))
+            known = w.joint_paths[b.joint_index] = (j.name, w.path_devices(chains))
+        rails = ("left", "right") if b.rail == "both" else (b.rail,)
         return ShortPath(self._key(b), ("train", self.name), "gap", known[0], self.name,
-                         known[1])
+                         known[1], rails)
 
     # ----------------------------------------------------------- start
     def start(self) -> None:
