@@ -122,7 +122,7 @@ SNAP_FRACTION = 1.0e-6
 #: Backward error allowed of a base solve: the residual of ``A z = b`` against
 #: ``|A|_max |z|_max + |b|_max`` (a relative measure; an absolute bound would
 #: refuse healthy solves of stiff networks, whose conductances reach 1e5 S).
-SOLVE_RTOL = 1e-9
+SOLVE_RTOL = 1e-12
 
 
 class SingularUpdate(ArithmeticError):
