@@ -74,7 +74,7 @@ from sim.devices.overcurrent import TripUnit
 from sim.devices.restart import RestartState
 from sim.devices.sensing import T_TOL_S, check_observation_time
 from sim.devices.thermal import ThermalReplica
-from sim.timebase import snap_s
+from sim.timebase import T_DIGITS, snap_s
 
 #: Transitions processed in one ``advance`` before the machine declares a loop.
 MAX_TRANSITIONS = 100_000
@@ -91,6 +91,9 @@ _STALE = False
 _new_event = tuple.__new__
 #: The data of an event that carries none (shared, read-only).
 _NO_DATA = MappingProxyType({})
+#: Decimal places of the run's time grid (``round(t, _DIGITS)`` is
+#: :func:`sim.timebase.snap_s`, inlined where it runs several times per event).
+_DIGITS = T_DIGITS
 
 
 @dataclass(frozen=True)
@@ -415,42 +418,42 @@ class ProtectionMachine:
         best = None
         d = self._t_uv_drop
         if d is not None:
-            best_t, best = snap_s(d), _K_DROPOUT
+            best_t, best = round(d, _DIGITS), _K_DROPOUT
         rep = self.replica
         if rep is not None and not self._thermal_open:
             d = rep.trip_deadline_s()
-            if d is not None and (best_t is None or snap_s(d) < best_t):
-                best_t, best = snap_s(d), _K_THERMAL_TRIP
+            if d is not None and (best_t is None or round(d, _DIGITS) < best_t):
+                best_t, best = round(d, _DIGITS), _K_THERMAL_TRIP
         d = self._timer.due_s()
-        if d is not None and (best_t is None or snap_s(d) < best_t):
-            best_t, best = snap_s(d), _K_TRIP
+        if d is not None and (best_t is None or round(d, _DIGITS) < best_t):
+            best_t, best = round(d, _DIGITS), _K_TRIP
         if self.swap is not None:
             mode = self._mode
             if mode == "swapping":
                 d = self._t_swap_end
-                if best_t is None or snap_s(d) < best_t:
-                    best_t, best = snap_s(d), _K_SWAPPED
+                if best_t is None or round(d, _DIGITS) < best_t:
+                    best_t, best = round(d, _DIGITS), _K_SWAPPED
             elif mode == "dead":
                 d = self._t_reclose
-                if best_t is None or snap_s(d) < best_t:
-                    best_t, best = snap_s(d), _K_RECLOSE
+                if best_t is None or round(d, _DIGITS) < best_t:
+                    best_t, best = round(d, _DIGITS), _K_RECLOSE
             elif mode == "hold" and not self._hold_extended:
                 d = self._t_hold_end
-                if best_t is None or snap_s(d) < best_t:
-                    best_t, best = snap_s(d), _K_HOLD_END
+                if best_t is None or round(d, _DIGITS) < best_t:
+                    best_t, best = round(d, _DIGITS), _K_HOLD_END
             d = self.sense_unit.timer.due_s()
-            if d is not None and (best_t is None or snap_s(d) < best_t):
-                best_t, best = snap_s(d), _K_SWAP_START
+            if d is not None and (best_t is None or round(d, _DIGITS) < best_t):
+                best_t, best = round(d, _DIGITS), _K_SWAP_START
         d = self._t_restart
-        if d is not None and (best_t is None or snap_s(d) < best_t):
-            best_t, best = snap_s(d), _K_RESTART
+        if d is not None and (best_t is None or round(d, _DIGITS) < best_t):
+            best_t, best = round(d, _DIGITS), _K_RESTART
         if rep is not None and self._thermal_open:
             d = rep.resume_deadline_s()
-            if d is not None and (best_t is None or snap_s(d) < best_t):
-                best_t, best = snap_s(d), _K_THERMAL_RESUME
+            if d is not None and (best_t is None or round(d, _DIGITS) < best_t):
+                best_t, best = round(d, _DIGITS), _K_THERMAL_RESUME
         d = self._t_uv_return
-        if d is not None and (best_t is None or snap_s(d) < best_t):
-            best_t, best = snap_s(d), _K_UV_RETURN
+        if d is not None and (best_t is None or round(d, _DIGITS) < best_t):
+            best_t, best = round(d, _DIGITS), _K_UV_RETURN
         return None if best is None else (best_t,) + best
 
     def _cancel_swap(self) -> None:

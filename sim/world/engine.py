@@ -997,6 +997,7 @@ class World:
         try:
             while q and q[0][0] < t_end:
                 if n >= budget:
+                    env._now = q[0][0]        # nothing happens before the next event
                     raise _StopRun(self._budget_finding(q[0][0]))
                 step()
                 n += 1

@@ -44,7 +44,8 @@ Rules (summarised in DEVELOPERS.md, "Episodes")
   I_G^2 dt`` over the episode, exact for the engine's piecewise-constant
   currents; ``devices`` the devices of its paths, track upwards; ``tripped``
   each of them that tripped, dropped out or switched off in it, with the first
-  instant.
+  instant, and every other booster on a supply of the episode that dropped
+  out in it (its supply's collapse followed from the short).
 * **Outcome.** ``unresolved`` when it still flows at the end, when two or more
   swaps happened in it (swaps that do not clear), or when the zero-time guard
   stepped in (``note`` says so). Otherwise the first device that acted names
@@ -93,7 +94,7 @@ RF-RUN-021 (error)   a device carried more than its trip level for longer than
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from typing import Callable, Hashable, Mapping, NamedTuple, Optional, Sequence
 
 from sim.model import Finding
@@ -138,12 +139,13 @@ class ShortPath:
     train: Optional[str] = None
     devices: tuple = ()
     rails: tuple = ()
+    #: The ``paths_a`` keys of its rails (``"j (left rail)"``; a fault: its place).
+    rail_names: tuple = field(init=False, compare=False)
 
-    def rail_names(self) -> tuple:
-        """The ``paths_a`` keys of its rails (``"j (left rail)"``; a fault: its place)."""
-        if not self.rails:
-            return (self.where,)
-        return tuple(f"{self.where} ({r} rail)" for r in self.rails)
+    def __post_init__(self) -> None:
+        names = (tuple(f"{self.where} ({r} rail)" for r in self.rails) if self.rails
+                 else (self.where,))
+        object.__setattr__(self, "rail_names", names)
 
 
 class Overrun(NamedTuple):
@@ -332,7 +334,7 @@ class EpisodeTracker:
                 if vals is None:
                     names, vals = (path.where,), (short_i_a[path],)
                 else:
-                    names = path.rail_names()
+                    names = path.rail_names
                 for name, v in zip(names, vals):
                     if v > op.paths.get(name, 0.0):
                         op.paths[name] = v
@@ -373,6 +375,10 @@ class EpisodeTracker:
         elif kind in TRIPPING:
             self._seq += 1
             ops = self._involving(ev.device)
+            if not ops and kind == "dropout" and ev.device in self._supply_of:
+                # a booster beside the short, on the same supply: its dropout
+                # follows from the episode that holds the supply
+                ops = self._involving(self._supply_of[ev.device])
             for op in ops:
                 op.acts.append((ev.t_s, self._seq, ev.device, kind))
             if kind != "dropout":
