@@ -536,8 +536,8 @@ class World:
                     self._episode_pass = False
                     for e in self.tracker.close_settled(t):
                         self.record(e)
-                if self._frozen:
-                    self._release(t)
+                if self._frozen and self._release(t):
+                    continue                              # a released device may be due
                 self._settle_ev = None
                 return
             if len(due) == 1:
@@ -608,9 +608,10 @@ class World:
             "takes time), and let one device only reverse each section"))
         self.tracker.force_unresolved(t, who, note)
 
-    def _release(self, t: float) -> None:
+    def _release(self, t: float) -> bool:
         """Release the held devices that no open episode holds any more (at a later
-        instant than the one they were held at, and held once only)."""
+        instant than the one they were held at, and held once only); whether any was."""
+        released = False
         for drv, (since, times) in list(self._frozen.items()):
             if times >= 2 or t <= since or self.tracker.involved(drv.name):
                 continue
@@ -618,6 +619,8 @@ class World:
             drv.held = False
             drv.dev.defer(t)
             drv.arm()
+            released = True
+        return released
 
     def _not_settling(self, t: float) -> None:
         """The instant does not settle and no device oscillates: stop the run here.
