@@ -41,21 +41,62 @@ whose output changed. So a reverser swapping at the very instant its
 booster's trip delay runs out wins the race: the booster observes the
 cleared current before its deadline is taken, and does not trip.
 
-Instants are scheduled at absolute times rounded to 1 ns
-(:data:`sim.world.processes.T_DIGITS`), so two deadlines that differ by float
-rounding only (``0.75 + 0.003`` and ``0.75 + 0.0005 + 0.0025``) meet at one
-instant and the tie-break decides, not the rounding. A settle that does not
-come to rest (more than :data:`MAX_PASSES` passes, or more than
-:data:`MAX_SETTLES_PER_INSTANT` settles at one instant) raises
-``RuntimeError`` instead of hanging.
+Time base
+---------
+Every instant lies on the run's 1 ns grid (:mod:`sim.timebase`): the drivers
+schedule at :func:`~sim.timebase.snap_s` of an instant, and the device
+machines report their deadlines and events on the same grid, so two
+deadlines that differ by float rounding only (``0.75 + 0.003`` and ``0.75 +
+0.0005 + 0.0025``) meet at one instant and the tie-break decides, and a
+machine's clock never runs ahead of the engine's (intervals of a few
+nanoseconds made time run backwards before). The loader refuses non-zero
+intervals below :data:`~sim.timebase.T_MIN_S`.
 
-Cancellation of deadlines: a cancellable-timeout scheme, see
-:mod:`sim.world.processes`.
+Every run ends with a result
+----------------------------
+* **Zero-time oscillation guard.** A device whose output changes
+  :data:`OSC_CHANGES` times at one instant acts on a current its own changes
+  keep changing, without time passing (zero swap, dead and hold-off times; two
+  reversers or a self-reversing booster fighting over one short; a
+  self-reversing booster on a load). The engine *holds* it as it is (it is
+  neither armed nor advanced; its clock follows the run), records RF-RUN-022
+  naming every device that changed at that instant, and marks the episodes
+  holding them ``unresolved`` with a note. It is released at a later instant
+  once no open episode holds it; held a second time it stays held. So the
+  short it fought over goes on until something upstream acts, as it would
+  with a chattering switch.
+* **An instant that does not settle** for another reason (more than
+  :data:`MAX_PASSES` passes of one settle, or :data:`MAX_SETTLES_PER_INSTANT`
+  settles at one instant) stops the run there with RF-RUN-024, naming the
+  circuit items that kept changing; the result covers the run up to it.
+* **Event budget.** A run processes at most ``event_budget`` engine events
+  (simpy events: deadlines, settles, train steps; :data:`EVENT_BUDGET` by
+  default, ``Result.stats["event_budget"]``); one that reaches it stops at
+  the next instant with RF-RUN-023 saying where and what was busiest, and
+  cannot pass. ``Result.t_end_s`` is where a run stopped.
 
 Solves: ``Circuit.update()`` checks Kirchhoff's current law itself; when that
-check fails (a near-zero-current state can defeat its relative tolerance) the
-engine solves the state in full with ``Circuit.solve()``, which checks it
-again, and counts it in ``Result.stats["full_solves"]``.
+check fails (a near-zero-current state can defeat its relative tolerance) or
+the update is singular or ill-conditioned (``SingularUpdate``), the engine
+solves the state in full with ``Circuit.solve()`` and counts it in
+``Result.stats["full_solves"]``. A full solve that still misses Kirchhoff's
+law (resistances spanning too many orders of magnitude for double precision)
+is used, with RF-RUN-025 once per run; a state that cannot be solved at all
+stops the run with RF-RUN-026.
+
+Episodes: the tracker of :mod:`sim.world.episodes` is fed every solve (the
+short paths' currents, each bridge's per rail, and the changed device
+currents) and every device event; its let-through findings (RF-RUN-020,
+RF-RUN-021) join the run's findings.
+
+Finding codes (this module)
+---------------------------
+RF-RUN-007 (warning) a restart tripped again on the keep-alive inrush alone.
+RF-RUN-022 (error)   zero-time oscillation: devices held by the guard.
+RF-RUN-023 (error)   the run reached its event budget and stopped there.
+RF-RUN-024 (error)   an instant that does not settle stopped the run.
+RF-RUN-025 (warning) a full solve met Kirchhoff's law only approximately.
+RF-RUN-026 (error)   a circuit state that cannot be solved stopped the run.
 
 Trains
 ------
@@ -66,9 +107,10 @@ section (at the train's bridge events). Bridges come from the closed-form
 intervals of :mod:`sim.world.trains`. A train has power when the voltage at
 its load is at least :data:`POWER_FRACTION` of nominal and its feeding
 device is closed; without power it stops once its keep-alive has run out
-(it stands where it is, keeping the bridges it stands on) and goes on when
-power returns; its crossing times are then computed anew from where it
-stopped.
+(it stands where it is, keeping the bridges it stands on - also one it
+reached at the very instant it stopped: a locomotive without keep-alive whose
+own bridge takes its power stands on that bridge) and goes on when power
+returns; its crossing times are then computed anew from where it stopped.
 
 Inrush at a restart
 -------------------
@@ -107,7 +149,6 @@ import numpy as np
 from sim.circuit.incremental import SingularUpdate
 from sim.circuit.network import KirchhoffError
 from sim.model import Finding, Scenario
-from sim.timebase import T_MIN_S, snap_s
 from sim.trace import (DeviceSummary, Event, EventSummary, Result, decide, verdict_findings,
                        SUPPLY_TRIP_EVENTS, TRIP_EVENTS)
 from sim.world.episodes import EpisodeTracker, ShortPath, overrun_findings

@@ -37,7 +37,7 @@ from typing import TYPE_CHECKING, Optional
 
 import simpy
 
-from sim.timebase import T_DIGITS, T_TOL_S, snap_s  # noqa: F401  (T_DIGITS re-exported)
+from sim.timebase import T_TOL_S, snap_s
 from sim.trace import Event
 
 if TYPE_CHECKING:  # pragma: no cover
