@@ -8,11 +8,7 @@ and the environment variable CI is unset; in CI a missing ngspice fails.
 """
 from __future__ import annotations
 
-import os
-import shutil
-
 import numpy as np
-import pytest
 
 from circuit_builders import booster, breaker, joint, reverser, scenario, section, supply
 from sim.circuit import build_circuit
@@ -20,16 +16,6 @@ from sim.circuit.spice import spice_currents, to_netlist
 from sim.model import Wire
 
 W20 = Wire(0.4, awg=20)
-
-
-@pytest.fixture(scope="module")
-def ngspice():
-    exe = shutil.which("ngspice")
-    if exe is None:
-        if os.environ.get("CI"):
-            pytest.fail("ngspice is required in CI (Debian package ngspice)")
-        pytest.skip("ngspice not installed")
-    return exe
 
 
 def compare(c, exe, rel=1e-6):

@@ -9,8 +9,6 @@ current is compared with ngspice on the engine's own circuit.
 from __future__ import annotations
 
 import math
-import os
-import shutil
 from dataclasses import replace
 from pathlib import Path
 from unittest import mock
@@ -153,16 +151,6 @@ def test_supply_of_a_denormal_resistance_is_taken_at_the_floor():
     res = run(scn)
     (ep,) = res.episodes
     assert ep.peak_a == pytest.approx(16.0 / (0.001 + 0.1 + 0.076), rel=1e-9)
-
-
-@pytest.fixture(scope="module")
-def ngspice():
-    exe = shutil.which("ngspice")
-    if exe is None:
-        if os.environ.get("CI"):
-            pytest.fail("ngspice is required in CI (Debian package ngspice)")
-        pytest.skip("ngspice not installed")
-    return exe
 
 
 def test_long_line_of_short_sections_solves(ngspice):
