@@ -12,8 +12,9 @@ the exact event logs of the tests.
 The :class:`Result` is what :func:`sim.world.run` returns; :meth:`Result.as_dict`
 gives the ``railfault-result/1`` JSON object fixed by the scenario format
 contract (``scenarios/README.md``, section "Results"): ``format``, ``scenario``,
-``seed``, ``duration_s``, ``verdict``, ``findings``, ``episodes``, ``devices``
-and, with ``--events``, ``events``. Times are in seconds and currents in
+``seed``, ``duration_s``, ``verdict``, ``findings``, ``episodes``, ``devices``,
+``headline``, ``t_end_s`` (where the run stopped), ``event_budget`` and, with
+``--events``, ``events``. Times are in seconds and currents in
 amperes; a quantity that does not exist (no margin, no thermal replica) is
 ``null``, never an infinity.
 """

@@ -626,7 +626,7 @@ class World:
         no open episode holds it (at a later instant); held a second time, it
         stays held for the rest of the run.
         """
-        since, times = self._frozen.get(drv, (t, 0))
+        _, times = self._frozen.get(drv, (t, 0))
         drv.held = True
         drv._ev = None
         drv.armed_s = drv.fire_s = None
