@@ -92,8 +92,11 @@ _new_event = tuple.__new__
 #: The data of an event that carries none (shared, read-only).
 _NO_DATA = MappingProxyType({})
 #: Decimal places of the run's time grid (``round(t, _DIGITS)`` is
-#: :func:`sim.timebase.snap_s`, inlined where it runs several times per event).
+#: :func:`sim.timebase.snap_s`, inlined where it runs several times per event), and
+#: half a step of it: an instant below ``t - _HALF_S`` lies on an earlier grid point.
 _DIGITS = T_DIGITS
+_HALF_S = 0.5 * 10.0 ** -T_DIGITS
+_INF = math.inf
 
 
 @dataclass(frozen=True)
@@ -410,49 +413,59 @@ class ProtectionMachine:
         grid; at one instant the lowest priority, the tie order of the module
         doc), or ``None``.
 
-        Candidates are visited in priority order and only a strictly earlier
-        one replaces the best, which is ``min`` over ``(t, priority)`` without
-        building the candidate list (this runs several times per event).
+        Candidates are visited in priority order and only one strictly earlier
+        on the grid replaces the best, which is ``min`` over ``(snap(t),
+        priority)`` without building the candidate list or snapping every
+        candidate (this runs several times per event).
         """
-        best_t = None
-        best = None
+        best_t = best = None
+        lim = _INF          # a candidate earlier on the grid than the best: d < lim
         d = self._t_uv_drop
         if d is not None:
             best_t, best = round(d, _DIGITS), _K_DROPOUT
+            lim = best_t - _HALF_S
         rep = self.replica
         if rep is not None and not self._thermal_open:
             d = rep.trip_deadline_s()
-            if d is not None and (best_t is None or round(d, _DIGITS) < best_t):
+            if d is not None and d < lim:
                 best_t, best = round(d, _DIGITS), _K_THERMAL_TRIP
+                lim = best_t - _HALF_S
         d = self._timer.due_s()
-        if d is not None and (best_t is None or round(d, _DIGITS) < best_t):
+        if d is not None and d < lim:
             best_t, best = round(d, _DIGITS), _K_TRIP
+            lim = best_t - _HALF_S
         if self.swap is not None:
             mode = self._mode
             if mode == "swapping":
                 d = self._t_swap_end
-                if best_t is None or round(d, _DIGITS) < best_t:
+                if d < lim:
                     best_t, best = round(d, _DIGITS), _K_SWAPPED
+                    lim = best_t - _HALF_S
             elif mode == "dead":
                 d = self._t_reclose
-                if best_t is None or round(d, _DIGITS) < best_t:
+                if d < lim:
                     best_t, best = round(d, _DIGITS), _K_RECLOSE
+                    lim = best_t - _HALF_S
             elif mode == "hold" and not self._hold_extended:
                 d = self._t_hold_end
-                if best_t is None or round(d, _DIGITS) < best_t:
+                if d < lim:
                     best_t, best = round(d, _DIGITS), _K_HOLD_END
+                    lim = best_t - _HALF_S
             d = self.sense_unit.timer.due_s()
-            if d is not None and (best_t is None or round(d, _DIGITS) < best_t):
+            if d is not None and d < lim:
                 best_t, best = round(d, _DIGITS), _K_SWAP_START
+                lim = best_t - _HALF_S
         d = self._t_restart
-        if d is not None and (best_t is None or round(d, _DIGITS) < best_t):
+        if d is not None and d < lim:
             best_t, best = round(d, _DIGITS), _K_RESTART
+            lim = best_t - _HALF_S
         if rep is not None and self._thermal_open:
             d = rep.resume_deadline_s()
-            if d is not None and (best_t is None or round(d, _DIGITS) < best_t):
+            if d is not None and d < lim:
                 best_t, best = round(d, _DIGITS), _K_THERMAL_RESUME
+                lim = best_t - _HALF_S
         d = self._t_uv_return
-        if d is not None and (best_t is None or round(d, _DIGITS) < best_t):
+        if d is not None and d < lim:
             best_t, best = round(d, _DIGITS), _K_UV_RETURN
         return None if best is None else (best_t,) + best
 

@@ -166,7 +166,7 @@ class _Open:
     """The bookkeeping of one open short episode (slotted: read on every solve)."""
 
     __slots__ = ("ep", "devs", "dev_i0", "would_s", "detect", "interrupt", "acts", "swaps",
-                 "i_last", "t_last", "i2t", "paths", "forced")
+                 "i_last", "t_last", "i2t", "paths", "forced", "keys")
 
     def __init__(self, ep: Episode, t_s: float):
         self.ep = ep
@@ -182,6 +182,7 @@ class _Open:
         self.i2t = 0.0
         self.paths: dict = {}             # rail path name -> peak A
         self.forced = ""                  # the guard's note, when it stepped in
+        self.keys: set = set()            # keys of the paths whose devices have joined
 
 
 class _Over:
@@ -338,9 +339,11 @@ class EpisodeTracker:
                 for name, v in zip(names, vals):
                     if v > op.paths.get(name, 0.0):
                         op.paths[name] = v
-                for d in path.devices:
-                    if d not in op.devs:
-                        self._join(op, d, t_s)
+                if path.key not in op.keys:         # a path new to the episode
+                    op.keys.add(path.key)
+                    for d in path.devices:
+                        if d not in op.devs:
+                            self._join(op, d, t_s)
         if opened and self._over:
             for op in opened.values():
                 for d in op.devs:
