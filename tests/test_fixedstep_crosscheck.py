@@ -33,6 +33,13 @@ CASES = [  # scenario, simulated time (s), step (s)
     # steps each train's front distance; the engine re-plans its closed-form motion)
     ("inrush", 3.0, 1e-4),
     ("stall", 8.0, 1e-4),
+    # the trust rules' scenarios: a swap that moves the short and a trip after it, a
+    # zero-ohm supply, an inverse-time trip, and a locomotive without keep-alive that
+    # stops on the bridge it reached (the reference steps onto it)
+    ("one-swap", 2.62, 1e-5),
+    ("zero-ohm-supply", 2.0, 1e-4),
+    ("slow-trip", 3.0, 1e-4),
+    ("stop-on-bridge", 1.1, 1e-4),
 ]
 
 
