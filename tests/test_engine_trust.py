@@ -287,3 +287,25 @@ def test_a_world_that_does_not_settle_stops_with_a_result():
     (f,) = [f for f in res.findings if f.code == "RF-RUN-024"]
     assert res.t_end_s == 0.0 and res.verdict == "fail" and "0 s" in f.message
     assert math.isfinite(res.t_end_s)
+
+
+# ------------------------------------------------------- every scenario ends
+ALL = sorted(p for p in (HERE.parent).rglob("*.yaml") if "bad" not in p.parts) + sorted(
+    (HERE.parents[2] / "scenarios").glob("*.yaml"))
+
+
+@pytest.mark.parametrize("path", ALL, ids=lambda p: f"{p.parent.name}/{p.name}")
+def test_every_scenario_runs_to_a_result(path):
+    from sim.errors import ScenarioError
+
+    try:
+        scn = load(path)
+    except ScenarioError:
+        pytest.skip("not a usable scenario (the loader's tests cover it)")
+    try:
+        res = run(scn)
+    except ScenarioError:
+        pytest.skip("a route the loader does not check (its tests cover it)")
+    assert res.verdict in ("pass", "fail")
+    codes = {f.code for f in res.findings}
+    assert res.t_end_s == scn.duration_s or codes & {"RF-RUN-023", "RF-RUN-024", "RF-RUN-026"}

@@ -165,13 +165,12 @@ class Overrun(NamedTuple):
 class _Open:
     """The bookkeeping of one open short episode (slotted: read on every solve)."""
 
-    __slots__ = ("ep", "devs", "dev_i0", "would_s", "detect", "interrupt", "acts", "swaps",
+    __slots__ = ("ep", "devs", "would_s", "detect", "interrupt", "acts", "swaps",
                  "i_last", "t_last", "i2t", "paths", "forced", "keys")
 
     def __init__(self, ep: Episode, t_s: float):
         self.ep = ep
         self.devs: set = set()            # devices of its paths so far
-        self.dev_i0: dict = {}            # device -> current when it joined
         self.would_s: dict = {}           # device -> would-trip instant
         self.detect: dict = {}            # swapping device -> t_detect
         self.interrupt: dict = {}         # swapping device -> first interrupt
@@ -265,7 +264,6 @@ class EpisodeTracker:
         self._tripped_s: dict[str, float] = {}  # device -> its last trip instant
         self._dropout_ep: dict[str, Episode] = {}   # supply -> its last dropout episode
         self._seq = 0
-        self._t_last = 0.0
         #: Whether an open episode had no path carrying short current in the last
         #: ``solution``: only then can a closing call with the same currents close one.
         self.pending_close = False
@@ -287,7 +285,6 @@ class EpisodeTracker:
         :meth:`close_settled`, once the instant has settled. Returns the
         ``short`` / ``cleared`` events it opened or closed.
         """
-        self._t_last = t_s
         if changed:
             self._account(t_s, changed)
         opened = self._open
@@ -545,10 +542,8 @@ class EpisodeTracker:
     def _join(self, op: _Open, d: str, t_s: float) -> None:
         """Device ``d`` carries the episode's current from ``t_s`` on."""
         op.devs.add(d)
-        i = self._dev_i.get(d, 0.0)
-        op.dev_i0[d] = i
         if self._t_swap_s(d) is None:
-            op.would_s[d] = self._would_trip(d, i, t_s)
+            op.would_s[d] = self._would_trip(d, self._dev_i.get(d, 0.0), t_s)
         ov = self._over.get(d)
         if ov is not None and ov.ep is None:
             ov.ep = op.ep
