@@ -34,13 +34,13 @@ def build_circuit(scn: Scenario, layout=None, grid_m: Optional[float] = None,
     scn
         The scenario.
     layout
-        Unused by the network itself (the circuit derives what it needs from
-        ``scn.track``); accepted for the agreed signature.
+        The scenario's layout (built when ``None``): the orientation of the
+        sections whose file gives no ``leads`` comes from its wiring sheet.
     grid_m
         Optional rail-node spacing (see :func:`sim.circuit.build.build_topology`);
         loads and shorts are exact at any position without it.
     """
-    circuit = Circuit(build_topology(scn, grid_m=grid_m, points_m=points_m))
+    circuit = Circuit(build_topology(scn, grid_m=grid_m, points_m=points_m, layout=layout))
     circuit.scn = scn
     return circuit
 

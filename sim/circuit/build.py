@@ -23,7 +23,9 @@ breaker, reverser
     switched leads of ``r_on_ohm / 2`` each; a swap exchanges the leads.
 feeders
     one conductor from each device output terminal to each rail at ``at_m``
-    (``leads: swapped`` crosses them); switchable (a feeder can open).
+    (``leads: swapped`` crosses them; a section whose file gives no ``leads`` is
+    wired as the wiring sheet chooses, :func:`sim.checks.wiring.section_leads`);
+    switchable (a feeder can open).
 rails
     each rail of each section is a chain of nodes at its ends, feeders and
     optional grid points, joined by ``r/m * dx``.
@@ -240,12 +242,27 @@ def _positions(length_m: float, extra: list[float], grid_m: Optional[float],
     return np.array(out, dtype=float)
 
 
+def _leads(scn: Scenario, layout) -> dict:
+    """``{section: +1|-1}``: the leads as given, or as the wiring sheet chooses them."""
+    if all(sec.leads is not None for sec in scn.track.sections.values()):
+        return {s: sec.leads for s, sec in scn.track.sections.items()}
+    from sim.checks.wiring import section_leads
+    from sim.layout import build_layout
+
+    if layout is None:
+        layout = build_layout(scn, check_routes=False)
+    return {s: v for s, (v, _) in section_leads(scn, layout).items()}
+
+
 def build_topology(scn: Scenario, grid_m: Optional[float] = None,
-                   points_m: Optional[dict] = None) -> Topology:
+                   points_m: Optional[dict] = None, layout=None) -> Topology:
     """Turn a scenario into a :class:`Topology` (see the module docstring).
 
     Parameters
     ----------
+    layout
+        The scenario's :class:`~sim.layout.Layout` (built when ``None``), for the
+        orientation of the sections whose file gives no ``leads``.
     grid_m
         Optional spacing: rail nodes no more than ``grid_m`` apart (besides the
         ends and feeders, which are always nodes). ``None``: ends and feeders only.
@@ -255,6 +272,7 @@ def build_topology(scn: Scenario, grid_m: Optional[float] = None,
     nodes = _Nodes()
     findings: list[Finding] = []
     perm: list[tuple[int, int, float, str]] = []
+    leads = _leads(scn, layout)
 
     def wire(a: int, b: int, r_ohm: float, label: str) -> None:
         if r_ohm < R_JOIN_OHM:
@@ -375,7 +393,7 @@ def build_topology(scn: Scenario, grid_m: Optional[float] = None,
             r_c = 0.0 if f is None else wire_r_ohm(f.wire) / 2.0
             k, _ = snet.locate(at)
             rl, rr = int(snet.left[k]), int(snet.right[k])
-            if sec.leads < 0:
+            if leads.get(name, 1) < 0:
                 rl, rr = rr, rl
             feeders[(name, i)] = FeederNet(name, i, at, snet.device, ((o_l, rl), (o_r, rr)),
                                            1.0 / max(r_c, R_MIN_OHM))
