@@ -90,7 +90,7 @@ from sim.model import Finding, Scenario
 
 __all__ = ["check_coordination", "earliest_trip_s", "latest_trip_s", "sampled_count",
            "clear_time_s", "reversing_margins", "dip_always_seen", "Advice", "race_advice",
-           "nested_advice", "full_scale_findings"]
+           "nested_advice", "full_scale_findings", "full_scale_subjects"]
 
 #: Resolution of the times the advice suggests (s): 0.01 ms.
 ADVICE_STEP_S = 1e-5
@@ -514,7 +514,12 @@ def full_scale_findings(scn: Scenario) -> list[Finding]:
     The one place of this rule: ``railfault check`` and ``railfault faultmap``
     both report it from here.
     """
-    findings = []
+    return [f for f, _, _ in full_scale_subjects(scn)]
+
+
+def full_scale_subjects(scn: Scenario) -> list:
+    """``[(finding, table, device)]`` of :func:`full_scale_findings`."""
+    out = []
     for table, kind in ((scn.boosters, "boosters"), (scn.breakers, "breakers"),
                         (scn.reversers, "reversers")):
         for name, dev in table.items():
@@ -526,13 +531,14 @@ def full_scale_findings(scn: Scenario) -> list[Finding]:
                 levels.append(("reverse sense threshold", dev.sense_reverse_a))
             for what, level in levels:
                 if fs <= level:
-                    findings.append(Finding(
+                    out.append((Finding(
                         "error", "RF-COORD-007", scn.where(kind, name, "sense"),
                         f"{kind[:-1]} {name} reads at most {fs:g} A (full scale) but its "
                         f"{what} is {level:g} A: the clamped reading never exceeds it, so "
                         f"it can never act",
-                        f"raise the full scale above {level:g} A or lower the {what}"))
-    return findings
+                        f"raise the full scale above {level:g} A or lower the {what}"),
+                        kind, name))
+    return out
 
 
 def check_coordination(scn: Scenario, layout) -> list[Finding]:

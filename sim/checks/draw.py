@@ -60,6 +60,7 @@ class LocoInterval:
 
     train: str
     vehicle: int
+    name: str
     section: str
     t_on_s: float
     t_off_s: float
@@ -82,6 +83,8 @@ class PeakDraw:
         Every train whose start or route visits the sections, all at once (A).
     all_trains : tuple of str
         Those trains.
+    on : tuple of LocoInterval
+        The locomotives in the sections at ``t_s``.
     """
 
     i_a: float
@@ -89,6 +92,7 @@ class PeakDraw:
     trains: tuple
     i_all_a: float
     all_trains: tuple
+    on: tuple = ()
 
 
 def loco_intervals(scn: Scenario, layout) -> list[LocoInterval]:
@@ -120,14 +124,17 @@ def loco_intervals(scn: Scenario, layout) -> list[LocoInterval]:
                         t_on = motion.arrival_s(s_a)
                         t_off = math.inf if s_b == math.inf else motion.arrival_s(s_b)
                         if t_off > t_on:
-                            out.append(LocoInterval(name, ld.vehicle, piece.section, t_on,
-                                                    t_off, ld.draw_a))
+                            out.append(LocoInterval(name, ld.vehicle, ld.name,
+                                                    piece.section, t_on, t_off, ld.draw_a))
     layout.cache[key] = out
     return out
 
 
-def _sweep(intervals: Iterable[LocoInterval], t_end_s: float):
-    """``(most draw, first instant, intervals on then)`` over ``[0, t_end_s)``."""
+def _sweep(intervals: Iterable[LocoInterval], t_end_s: float, weight=None):
+    """``(most total weight, first instant, intervals on then)`` over ``[0, t_end_s)``;
+    the weight of an interval is its draw unless ``weight(interval)`` says otherwise."""
+    intervals = list(intervals)
+    w = (lambda iv: iv.draw_a) if weight is None else weight
     events = []
     for iv in intervals:
         t_on = max(iv.t_on_s, 0.0)
@@ -143,7 +150,7 @@ def _sweep(intervals: Iterable[LocoInterval], t_end_s: float):
         t = events[i][0]
         while i < len(events) and events[i][0] == t:
             _, on, iv = events[i]
-            cur += iv.draw_a if on else -iv.draw_a
+            cur += w(iv) if on else -w(iv)
             i += 1
         if cur > best + _I_TOL_A:
             best, best_t = cur, t
@@ -154,17 +161,22 @@ def _sweep(intervals: Iterable[LocoInterval], t_end_s: float):
     return best, best_t, on_then
 
 
-def peak_draw(scn: Scenario, layout, sections: Iterable[str]) -> PeakDraw:
-    """The most the trains draw in ``sections`` at one instant (module docstring)."""
+def peak_draw(scn: Scenario, layout, sections: Iterable[str], weight=None) -> PeakDraw:
+    """The most the trains draw in ``sections`` at one instant (module docstring).
+
+    With ``weight`` (a function of a :class:`LocoInterval`) the instant is the one
+    where the sum of the weights is largest (e.g. draw plus keep-alive inrush), and
+    ``i_a`` is that sum.
+    """
     secs = set(sections)
     ivs = [iv for iv in loco_intervals(scn, layout) if iv.section in secs]
-    best, t, on_then = _sweep(ivs, scn.duration_s)
+    best, t, on_then = _sweep(ivs, scn.duration_s, weight)
     trains = tuple(sorted({iv.train for iv in on_then}))
     visit = _visits(scn, layout)
     all_trains = tuple(sorted(t for t, ss in visit.items() if ss & secs))
     plans_draw = _train_draw(scn, layout)
     i_all = sum(plans_draw[t] for t in all_trains)
-    return PeakDraw(best, t, trains, i_all, all_trains)
+    return PeakDraw(best, t, trains, i_all, all_trains, on_then)
 
 
 def _visits(scn: Scenario, layout) -> dict:

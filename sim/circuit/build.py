@@ -242,6 +242,24 @@ def _positions(length_m: float, extra: list[float], grid_m: Optional[float],
     return np.array(out, dtype=float)
 
 
+def rail_positions(sec, r_per_m_ohm: float, grid_m: Optional[float] = None,
+                   extra_m=()) -> np.ndarray:
+    """Sorted distinct positions along a section: its ends, its feeders (one at
+    mid-length for a fed section without any), ``extra_m`` and a grid no more than
+    ``grid_m`` apart; positions closer than :data:`NODE_MERGE_M` (or than the rail
+    length of :data:`R_JOIN_OHM`, or a quarter of the grid) are one.
+
+    The rail nodes of the circuit, and the coin-test points of the fault map.
+    """
+    feeders_m = [f.at_m for f in sec.feeders]
+    if sec.feed is not None and not sec.feeders:
+        feeders_m = [sec.length_m / 2.0]
+    merge_m = max(NODE_MERGE_M, R_JOIN_OHM / r_per_m_ohm)
+    if grid_m:
+        merge_m = min(merge_m, grid_m / 4.0)
+    return _positions(sec.length_m, feeders_m + list(extra_m), grid_m, merge_m)
+
+
 def _leads(scn: Scenario, layout) -> dict:
     """``{section: +1|-1}``: the leads as given, or as the wiring sheet chooses them."""
     if all(sec.leads is not None for sec in scn.track.sections.values()):
@@ -357,14 +375,7 @@ def build_topology(scn: Scenario, grid_m: Optional[float] = None,
         raise TopologyError("the rail resistance must be positive")
     sections: dict[str, SectionNet] = {}
     for name, sec in scn.track.sections.items():
-        feeders_m = [f.at_m for f in sec.feeders]
-        if sec.feed is not None and not sec.feeders:
-            feeders_m = [sec.length_m / 2.0]
-        extra = feeders_m + list((points_m or {}).get(name, ()))
-        merge_m = max(NODE_MERGE_M, R_JOIN_OHM / r_m)
-        if grid_m:
-            merge_m = min(merge_m, grid_m / 4.0)
-        xs = _positions(sec.length_m, extra, grid_m, merge_m)
+        xs = rail_positions(sec, r_m, grid_m, (points_m or {}).get(name, ()))
         left = np.array([nodes.add(f"rail:{name}.left@{x:.6g}m") for x in xs], dtype=np.int64)
         right = np.array([nodes.add(f"rail:{name}.right@{x:.6g}m") for x in xs], dtype=np.int64)
         dev = sec.feed
