@@ -71,8 +71,9 @@ from sim.model import Finding, Scenario
 #: Coin resistance of the coin test (ohm): common practice.
 R_COIN_OHM = 0.01
 
-#: Right-hand sides solved together.
-BATCH = 256
+#: Right-hand sides solved together (SuperLU's multi-column solve slows down sharply
+#: beyond a few columns: 8 a batch was the fastest measured, tests/bench/bench_faultmap.py).
+BATCH = 8
 
 #: Most coin-test points of one map; the step is widened beyond it (RF-FAULT-005).
 MAX_POINTS = 50_000
