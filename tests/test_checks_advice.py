@@ -203,3 +203,26 @@ def test_no_dead_time_the_upstream_count_never_stops():
             if f.code in ("RF-COORD-004", "RF-COORD-005")]
     assert f.code == "RF-COORD-005" and "as late as 4.1 ms" in f.message
     assert not rev_trips_first(with_phases(scn, {"east": 0.0}))
+
+
+# ------------------------------------------------------- the YAML scenario
+def test_yaml_dead_time_check_and_run_agree():
+    # tests/scenarios/checks/advice-dead-time.yaml (hand derivation in its header):
+    # check warns that east may trip first; the run (east's phase 0) shows it trip 4 ms
+    # after the onset, before rev; with the suggested dead time rev trips first
+    from pathlib import Path
+
+    from sim.scenario import load
+
+    scn = load(Path(__file__).resolve().parent / "scenarios" / "checks" /
+               "advice-dead-time.yaml")
+    lay = build_layout(scn)
+    (f,) = [f for f in check_coordination(scn, lay) if f.code == "RF-COORD-005"]
+    assert "as late as 4.3 ms" in f.message and "as early as 4 ms" in f.message
+    res = run(scn)
+    assert res.devices["east"].trips == 1 and res.devices["rev"].trips == 0
+    trip = next(e for e in res.episodes if e.acted == "east")
+    assert trip.acted_s == pytest.approx(0.1 + 0.004, abs=1e-9)
+    dead = next(a for a in nested_advice(scn, "rev", "east") if a.key[-1] == "dead_time")
+    assert dead.value_s == pytest.approx(1.01e-3)
+    assert rev_trips_first(apply(scn, dead.key, dead.value_s))
