@@ -111,5 +111,9 @@ def test_demo_layout_has_no_errors():
 
 @pytest.mark.parametrize("name", sorted(p.name for p in HERE.glob("*.yaml")))
 def test_every_check_scenario_loads_and_finds_something(name):
-    _, rep = report(name)
-    assert rep.errors
+    # static and circuit checks together (some scenarios pass: the club ring, the
+    # wiring sheet; their findings are notes)
+    from sim.commands.check import check_result
+
+    res = check_result(str(HERE / name))
+    assert res["findings"]
