@@ -3,20 +3,16 @@
 Rule (domain.md, "Polarity, as a signed graph"): phase(X) = booster phase x leads(X);
 across a joint of sign s the rails agree when phase(X) == s phase(Y). The expected
 orientations of tests/scenarios/checks/wiring-loop.yaml are derived by hand in its
-header.
+header. The property test of the free leads against brute force is in
+tests/test_checks_phasing.py.
 """
 from __future__ import annotations
 
-import itertools
-import re
 from pathlib import Path
 
-from hypothesis import assume, given, settings
-from hypothesis import strategies as st
-
-from sim.checks.phasing import check_phasing, solve_phases
+from sim.checks.phasing import check_phasing
 from sim.checks.polarity import is_balanced
-from sim.checks.wiring import section_leads, wiring_rows
+from sim.checks.wiring import section_leads
 from sim.circuit import build_circuit
 from sim.commands.check import check_result, render_check
 from sim.layout import build_layout
@@ -104,68 +100,3 @@ def test_an_unbalanced_loop_keeps_its_bonded_joints_in_phase():
     assert leads == {"p": 1, "q": 1, "r": -1}
     from sim.checks.rootcause import dead_short_joints
     assert dead_short_joints(scn, lay) == []
-
-
-# ------------------------------------------------------------ property test
-@st.composite
-def layouts_with_free_leads(draw):
-    n_b = draw(st.integers(1, 3))
-    n_s = draw(st.integers(2, 6))
-    b = ScenarioBuilder()
-    for i in range(n_b):
-        b.booster(f"B{i}", phase=draw(st.sampled_from((1, -1))))
-    for i in range(n_s):
-        b.section(f"s{i}", 1.0, f"B{draw(st.integers(0, n_b - 1))}",
-                  leads=draw(st.sampled_from((1, -1, None))))
-    for _ in range(draw(st.integers(1, 7))):
-        x = draw(st.integers(0, n_s - 1))
-        y = draw(st.integers(0, n_s - 1))
-        if x == y:
-            continue
-        b.joint(f"s{x}.{draw(st.sampled_from('ab'))}", f"s{y}.{draw(st.sampled_from('ab'))}",
-                draw(st.sampled_from(("none", "both"))))
-    return b.build()
-
-
-def brute_force(scn):
-    """Fewest changes of *given* settings (booster phases, given leads) such that some
-    orientation of the sections without leads puts every joint in phase; by enumeration
-    of every booster phase and every leads assignment."""
-    boosters = sorted(scn.boosters)
-    secs = sorted(scn.track.sections)
-    best = None
-    for ph in itertools.product((1, -1), repeat=len(boosters)):
-        bp = dict(zip(boosters, ph))
-        for ld in itertools.product((1, -1), repeat=len(secs)):
-            leads = dict(zip(secs, ld))
-            phase = {s: bp[scn.track.sections[s].feed] * leads[s] for s in secs}
-            if all(phase[j.ends[0].section] == j.sign * phase[j.ends[1].section]
-                   for j in scn.track.joints):
-                chg = sum(bp[x] != scn.boosters[x].phase for x in boosters) + \
-                    sum(scn.track.sections[s].leads is not None
-                        and leads[s] != scn.track.sections[s].leads for s in secs)
-                best = chg if best is None else min(best, chg)
-    return best
-
-
-@settings(max_examples=150, deadline=None)
-@given(layouts_with_free_leads())
-def test_free_leads_fewest_changes_match_brute_force(scn):
-    lay = build_layout(scn)
-    assume(is_balanced(lay.graph))
-    found = check_phasing(scn, lay)
-    total = sum(int(re.match(r"change (\d+) setting", f.fix).group(1)) for f in found)
-    assert total == brute_force(scn)
-    # a section without leads is never named in a fix
-    free = {s for s, sec in scn.track.sections.items() if sec.leads is None}
-    for f in found:
-        assert not any(f"section {s}:" in f.fix for s in free)
-    # with no finding, the chosen orientation puts every joint in phase
-    if not found:
-        sol = solve_phases(scn, lay)
-        phase = {s: scn.boosters[scn.track.sections[s].feed].phase * sol.leads[s]
-                 for s in scn.track.sections}
-        assert all(phase[j.ends[0].section] == j.sign * phase[j.ends[1].section]
-                   for j in scn.track.joints)
-    rows = wiring_rows(scn, lay)
-    assert {r["section"] for r in rows if r["chosen"]} == free

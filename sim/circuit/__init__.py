@@ -94,35 +94,35 @@ def check_findings(scn: Scenario, layout=None, step_m: float = 0.5, with_map: bo
         layout = build_layout(scn)
     try:
         findings, fm = _circuit_findings(scn, layout, step_m)
-        mends = static_mends(scn, layout) + limit_mends(scn, fm.devices)
-        roots = {(f.code, f.where) for f in findings if f.code == "RF-FAULT-003"}
-        because: dict = {}
-        passes = [(m.root, m.scn) for m in mends]
-        if len(mends) > 1:
-            merged = scn
-            for m in mends:
-                merged = _merge(merged, m.scn, scn)
-            passes.append((mends[0].root, merged))
-        for root, mended in passes:
-            mended_layout = build_layout(mended, check_routes=False)
-            mended_layout.cache.update({k: v for k, v in layout.cache.items()
-                                        if k in ("loco_intervals", "train_visits",
-                                                 "train_draw")})
-            after, _ = _circuit_findings(mended, mended_layout, step_m)
-            left = {(f.code, f.where) for f in after}
-            for f in findings:
-                key = (f.code, f.where)
-                if key in roots or key in because or key in left:
-                    continue
-                if (f.code, f.where) != (root.code, root.where):
-                    because[key] = because_of(root)
-        findings = [dataclasses.replace(f, because=because[(f.code, f.where)])
-                    if (f.code, f.where) in because else f for f in findings]
     except (TopologyError, KeyError, ValueError, SingularUpdate, KirchhoffError) as exc:
         err = [Finding("error", "RF-CKT-006", "track",
                        f"the circuit of this layout cannot be built or solved: {exc}",
                        "check the rail, wire and device values")]
         return (err, [], None) if with_map else (err, [])
+    mends = static_mends(scn, layout) + limit_mends(scn, fm.devices)
+    passes = [(m.root, m.scn) for m in mends]
+    if len(mends) > 1:
+        merged = scn
+        for m in mends:
+            merged = _merge(merged, m.scn, scn)
+        passes.append((mends[0].root, merged))
+    because: dict = {}
+    for root, mended in passes:
+        mended_layout = build_layout(mended, check_routes=False)
+        mended_layout.cache.update({k: v for k, v in layout.cache.items()
+                                    if k in ("loco_intervals", "train_visits", "train_draw")})
+        try:
+            after, _ = _circuit_findings(mended, mended_layout, step_m)
+        except (TopologyError, SingularUpdate, KirchhoffError):
+            continue                     # the mended copy cannot be solved: no marks from it
+        left = {(f.code, f.where) for f in after}
+        for f in findings:
+            key = (f.code, f.where)
+            if f.code != "RF-FAULT-003" and key not in because and key not in left \
+                    and key != (root.code, root.where):
+                because[key] = because_of(root)
+    findings = [dataclasses.replace(f, because=because[(f.code, f.where)])
+                if (f.code, f.where) in because else f for f in findings]
     return (findings, list(fm.rows), fm) if with_map else (findings, list(fm.rows))
 
 
