@@ -184,7 +184,7 @@ def _below(limit_s: float, strict: bool) -> float:
     k = math.floor(limit_s / ADVICE_STEP_S + 1e-9)
     if strict and k * ADVICE_STEP_S >= limit_s - 1e-12:
         k -= 1
-    return k * ADVICE_STEP_S
+    return round(k * ADVICE_STEP_S, 12)
 
 
 def _above(limit_s: float, strict: bool) -> float:
@@ -192,7 +192,7 @@ def _above(limit_s: float, strict: bool) -> float:
     k = math.ceil(limit_s / ADVICE_STEP_S - 1e-9)
     if strict and k * ADVICE_STEP_S <= limit_s + 1e-12:
         k += 1
-    return k * ADVICE_STEP_S
+    return round(k * ADVICE_STEP_S, 12)
 
 
 def _delay_latest_below(budget_s: float, period_s: Optional[float], strict: bool,
@@ -201,7 +201,7 @@ def _delay_latest_below(budget_s: float, period_s: Optional[float], strict: bool
     if period_s:
         n = math.ceil(budget_s / period_s - 1e-9) - 1 if strict else \
             math.floor(budget_s / period_s + 1e-9)
-        return n * period_s if n >= 1 else None
+        return round(n * period_s, 12) if n >= 1 else None
     t = _below(budget_s, strict)
     return t if t > minimum_s else None
 
@@ -211,7 +211,7 @@ def _delay_earliest_above(limit_s: float, period_s: Optional[float], strict: boo
     if period_s:
         k = limit_s / period_s
         n_minus_1 = math.floor(k + 1e-9) + 1 if strict else math.ceil(k - 1e-9)
-        return (max(n_minus_1, 0) + 1) * period_s
+        return round((max(n_minus_1, 0) + 1) * period_s, 12)
     return _above(limit_s, strict)
 
 
