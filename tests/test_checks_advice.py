@@ -22,7 +22,7 @@ import pytest
 from sim.checks.coordination import (check_coordination, dip_always_seen, nested_advice,
                                      race_advice)
 from sim.layout import build_layout
-from sim.model import Fault, Sense, Trip
+from sim.model import Fault, Trip
 from sim.world import run
 from tests.builders import ScenarioBuilder
 

@@ -456,8 +456,8 @@ def _polarity(scn: Scenario, layout) -> list:
             f"unbalanced loop {_arrow(nodes)} (crossed: {', '.join(crossed)}) lies wholly "
             f"in the district of {dev}, which reverses it all at once: no setting of "
             f"{dev} gives it one polarity all round",
-            f"feed one section of this loop from a fixed-polarity district, gapped on both "
-            f"rails at both its ends"), frozenset(groups[dev])))
+            "feed one section of this loop from a fixed-polarity district, gapped on both "
+            "rails at both its ends"), frozenset(groups[dev])))
     for cyc in reversing_cycles(scn, layout):
         if cyc["covered_by"]:
             findings.append((Finding(
