@@ -247,15 +247,18 @@ class Section:
     """A length of track with ends ``a`` and ``b``.
 
     ``feed`` names a booster, breaker or reverser (``None``: fed only through
-    bonded joints). ``leads`` is +1 (normal) or -1 (swapped, a mis-wired
-    section). When no feeders are given the loader puts one at mid-length.
+    bonded joints). ``leads`` is the feeders' orientation as built, seen from
+    ``a`` to ``b``: +1 (normal: the device's first output terminal on the left
+    rail) or -1 (swapped: on the right); ``None`` when the file gives none and
+    the tool chooses it (:func:`sim.checks.wiring.section_leads`). When no
+    feeders are given the loader puts one at mid-length.
     """
 
     name: str
     length_m: float
     feed: Optional[str]
     feeders: tuple[Feeder, ...] = ()
-    leads: int = NORMAL
+    leads: Optional[int] = NORMAL
 
 
 @dataclass(frozen=True)

@@ -647,7 +647,8 @@ class _Builder:
                             for f in self.checker.feeders.get(name, ()))
             sections[name] = M.Section(name=name, length_m=s["length"], feed=s.get("feed"),
                                        feeders=feeders,
-                                       leads=M.NORMAL if s["leads"] == "normal" else M.INVERTED)
+                                       leads=None if s["leads"] is None else
+                                       M.NORMAL if s["leads"] == "normal" else M.INVERTED)
         joints = []
         for i, j in enumerate(t["joints"]):
             ends = tuple(M.End(*e.rsplit(".", 1)) for e in j["ends"])

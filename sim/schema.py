@@ -740,7 +740,10 @@ SECTION = Record("section", {
                   "feeding device; absent or null: fed through bonded joints"),
     "feeders": Field(Seq(FEEDER, min_items=1, what="a list of feeders"), None,
                      "feeder pairs; absent: one at mid-length, negligible wire"),
-    "leads": Field(Choice(("normal", "swapped")), "normal", "swapped: a mis-wired section"),
+    "leads": Field(Choice(("normal", "swapped")), None,
+                   "feeders as built, seen from a to b: normal puts the device's first output "
+                   "terminal on the left rail, swapped on the right; absent: the tool chooses "
+                   "the orientation that puts every bonded joint in phase (wiring sheet)"),
 })
 JOINT = Record("joint", {
     "ends": Field(Seq(Text(r"^[A-Za-z0-9_][A-Za-z0-9_-]*\.[ab]$", "a section end like "

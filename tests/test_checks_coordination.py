@@ -10,6 +10,7 @@ import pytest
 
 from sim.checks.coordination import (check_coordination, earliest_trip_s, latest_trip_s,
                                      reversing_margins)
+from sim.checks.draw import check_draw
 from sim.layout import build_layout
 from tests.builders import ScenarioBuilder
 
@@ -83,7 +84,12 @@ def test_negative_margin_is_an_error():
     assert (f.severity, f.code) == ("error", "RF-COORD-001")
     assert "margin -0.100 ms" in f.message
     assert f.where.startswith("reversers.tail-ctl (line ")
-    assert "more than 0.100 ms" in f.fix
+    # hand: the swap must end before 0.5 ms: swap < 0.5 - 0.1 = 0.4 ms, on the 0.01 ms
+    # grid 0.39 ms; or the booster's delay above t_clear = 0.6 ms: 0.61 ms. The sense
+    # delay alone cannot win (the swap alone already takes the booster's 0.5 ms).
+    assert f.fix == ("any one of these wins the race whatever the sample phases: set "
+                     "tail-ctl's swap time to 0.39 ms or less (now 0.5 ms); or set west's "
+                     "trip delay to 0.61 ms or more (now 0.5 ms)")
 
 
 def test_margin_below_the_required_one_is_a_warning():
@@ -91,7 +97,11 @@ def test_margin_below_the_required_one_is_a_warning():
     scn = wye(margin_req_s=0.005)
     (f,) = check_coordination(scn, build_layout(scn))
     assert (f.severity, f.code) == ("warning", "RF-COORD-002")
-    assert "gain 1.600 ms" in f.fix
+    # hand: the margin needs west's earliest trip after 0.6 + 5 = 5.6 ms (5.61 ms on the
+    # 0.01 ms grid); no swap time or sense delay of the reverser gives 5 ms against 4 ms
+    assert f.fix == ("any one of these wins the race by more than the required 5 ms "
+                     "whatever the sample phases: set west's trip delay to 5.61 ms or more "
+                     "(now 4 ms)")
 
 
 def test_devices_across_the_gap_are_on_the_short_path():
@@ -161,9 +171,10 @@ def test_trip_threshold_below_running_draw():
     b.train("t1", ["loco", "loco"], ["s1", "s2"])
     b.train("t2", ["loco", "loco"], ["s2", "s1"])
     scn = b.build()
-    (f,) = check_coordination(scn, build_layout(scn))
+    (f,) = check_draw(scn, build_layout(scn))
     assert (f.severity, f.code) == ("error", "RF-COORD-008")
     assert "draw 3.2 A" in f.message and "(t1, t2)" in f.message
+    assert "at 0.00 s" in f.message              # both stand in the district at the start
 
 
 def test_booster_that_reverses_its_own_output_races_its_neighbour():

@@ -136,7 +136,7 @@ def test_reverser_fed_sections_are_not_fixed_phase():
 
 
 @st.composite
-def small_layouts(draw):
+def small_layouts(draw, leads=(1, -1)):
     n_b = draw(st.integers(1, 3))
     n_s = draw(st.integers(2, 6))
     b = ScenarioBuilder()
@@ -144,7 +144,7 @@ def small_layouts(draw):
         b.booster(f"B{i}", phase=draw(st.sampled_from((1, -1))))
     for i in range(n_s):
         b.section(f"s{i}", 1.0, f"B{draw(st.integers(0, n_b - 1))}",
-                  leads=draw(st.sampled_from((1, -1))))
+                  leads=draw(st.sampled_from(leads)))
     for _ in range(draw(st.integers(1, 7))):
         x = draw(st.integers(0, n_s - 1))
         y = draw(st.integers(0, n_s - 1))
@@ -157,7 +157,8 @@ def small_layouts(draw):
 
 def brute_force_min_changes(scn):
     """Fewest settings to change so that every joint is in phase, by enumeration of
-    every booster phase and section leads assignment (independent of the check)."""
+    every booster phase and section leads assignment (independent of the check). A
+    section whose leads are not given (None) takes any orientation at no cost."""
     boosters = sorted(scn.boosters)
     secs = sorted(scn.track.sections)
     best = None
@@ -169,7 +170,8 @@ def brute_force_min_changes(scn):
             if all(phase[j.ends[0].section] == j.sign * phase[j.ends[1].section]
                    for j in scn.track.joints):
                 chg = sum(bp[x] != scn.boosters[x].phase for x in boosters) + \
-                    sum(leads[s] != scn.track.sections[s].leads for s in secs)
+                    sum(scn.track.sections[s].leads is not None
+                        and leads[s] != scn.track.sections[s].leads for s in secs)
                 best = chg if best is None else min(best, chg)
     return best
 
@@ -182,3 +184,28 @@ def test_minimal_fix_matches_brute_force(scn):
     found = check_phasing(scn, lay)
     total = sum(int(re.match(r"change (\d+) setting", f.fix).group(1)) for f in found)
     assert total == brute_force_min_changes(scn)
+
+
+@settings(max_examples=150, deadline=None)
+@given(small_layouts(leads=(1, -1, None)))
+def test_free_leads_fewest_changes_match_brute_force(scn):
+    # sections without leads are free: never named in a fix, and when nothing is to be
+    # fixed the orientation the tool chooses puts every joint in phase
+    from sim.checks.phasing import solve_phases
+    from sim.checks.wiring import wiring_rows
+
+    lay = build_layout(scn)
+    assume(is_balanced(lay.graph))
+    found = check_phasing(scn, lay)
+    total = sum(int(re.match(r"change (\d+) setting", f.fix).group(1)) for f in found)
+    assert total == brute_force_min_changes(scn)
+    free = {s for s, sec in scn.track.sections.items() if sec.leads is None}
+    for f in found:
+        assert not any(f"section {s}:" in f.fix for s in free)
+    if not found:
+        sol = solve_phases(scn, lay)
+        phase = {s: scn.boosters[scn.track.sections[s].feed].phase * sol.leads[s]
+                 for s in scn.track.sections}
+        assert all(phase[j.ends[0].section] == j.sign * phase[j.ends[1].section]
+                   for j in scn.track.joints)
+    assert {r["section"] for r in wiring_rows(scn, lay) if r["chosen"]} == free

@@ -9,10 +9,12 @@ import pytest
 
 from circuit_builders import (booster, breaker, joint, ladder, loco, reverser, scenario,
                               section, supply, train)
+from sim.checks.draw import check_draw
 from sim.circuit import build_circuit, check_findings
+from sim.layout import build_layout
 from sim.circuit.build import build_topology
 from sim.circuit.conductors import awg_r_per_m_ohm
-from sim.circuit.faultmap import chain_of, fault_map, section_districts, thevenin_points
+from sim.circuit.faultmap import fault_map
 from sim.circuit.network import Circuit
 from sim.circuit.voltage import rail_voltage, rail_voltage_findings
 from sim.circuit.windows import trip_windows, window_findings
@@ -81,20 +83,19 @@ def test_fault_map_equals_a_real_short_in_the_solver():
     assert fm.points[-1].chain == ("rv", "cb", "A")
 
 
-def test_reduced_thevenin_equals_direct_solves():
+def test_points_between_junctions_equal_points_on_rail_nodes():
+    # the map interpolates between the ends and feeders (module docstring: Kron
+    # reduction of a span); on a circuit with a rail node at every point the same
+    # points are plain solves at nodes: the two must agree to rounding
     scn = ladder(12, length=4.0, boosters=3, supplies=2)
-    c = Circuit(build_topology(scn, grid_m=0.5))
-    fm = fault_map(scn, step_m=0.5, circuit=c)
-    x0 = c._orig.wb.u @ np.where(c._sup_on, c._sup_v * c._sg, 0.0)
-    d = section_districts(scn)
-    chains = {s: chain_of(scn, d[s]) for s in scn.track.sections}
-    red = list(thevenin_points(c, x0, chains))
-    direct = list(thevenin_points(c, x0, chains, direct=True))
-    assert len(red) == len(direct) == len(fm.points)
-    for a, b in zip(red, direct):
-        assert a[:2] == b[:2]
-        assert a[3] == pytest.approx(b[3], rel=1e-9)
-        assert a[4] == pytest.approx(b[4], rel=1e-9)
+    sparse = fault_map(scn, step_m=0.5)
+    grid = fault_map(scn, step_m=0.5, circuit=Circuit(build_topology(scn, grid_m=0.5)))
+    assert len(sparse.points) == len(grid.points) > 12 * 8
+    for a, b in zip(sparse.points, grid.points):
+        assert (a.section, a.at_m, a.chain) == (b.section, b.at_m, b.chain)
+        assert a.r_th_ohm == pytest.approx(b.r_th_ohm, rel=1e-9)
+        assert a.v_oc_v == pytest.approx(b.v_oc_v, rel=1e-9)
+        assert a.device_i_a == pytest.approx(b.device_i_a, rel=1e-9)
 
 
 def test_supply_limit_makes_a_threshold_unreachable():
@@ -107,7 +108,9 @@ def test_supply_limit_makes_a_threshold_unreachable():
 
 def test_sensing_full_scale_clamp_never_trips():
     fm = fault_map(end_fed(trip_a=5.0, full_scale=4.0))
-    assert "RF-FAULT-004" in codes(fm.findings)
+    # one rule, one code: the full-scale rule is the static RF-COORD-007 (RF-FAULT-004
+    # retired), which the fault map reports too
+    assert "RF-COORD-007" in codes(fm.findings) and "RF-FAULT-004" not in codes(fm.findings)
     assert not any(r["ok"] for r in fm.rows)
     assert fm.rows[0]["current_a"] > 100.0      # the current is there; the reading is not
 
@@ -166,7 +169,9 @@ def test_trip_window_steady_draw_and_rating_warning():
                    [section("s", 10.0, "b", [(0.0, W20)])], rolling_stock=[m],
                    trains=[train("t1", ["m", "m"], "s", ["s"])])
     f = window_findings(scn, fault_map(scn))
-    assert "RF-WIN-002" in codes(f)       # 6 A of draw against a 5 A trip
+    # 6 A of draw against a 5 A trip: the one rule RF-COORD-008 (RF-WIN-002 retired)
+    assert "RF-WIN-002" not in codes(f)
+    assert codes(check_draw(scn, build_layout(scn))) == ["RF-COORD-008"]
     assert "RF-WIN-004" in codes(f)       # rated 25 A > 70 % of about 24.5 A
 
 

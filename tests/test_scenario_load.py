@@ -129,7 +129,7 @@ def test_demo_track_and_trains(demo):
     assert track.r_wheel_contact_ohm == 0.05
     assert len(track.sections) == 8 and len(track.joints) == 9
     mw = track.sections["main-west"]
-    assert mw.length_m == 12.0 and mw.feed == "west" and mw.leads == M.NORMAL
+    assert mw.length_m == 12.0 and mw.feed == "west" and mw.leads is None  # absent: the tool chooses
     assert [f.at_m for f in mw.feeders] == [1.0, 6.0, 11.0]
     assert mw.feeders[0].wire == M.Wire(length_m=pytest.approx(0.4), awg=20.0)
     j = track.joints[2]

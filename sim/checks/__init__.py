@@ -13,7 +13,8 @@ coverage       RF-COV-*      reversing sections gapped and needed
 gaps           RF-GAP-*      district boundaries, unfed track
 phasing        RF-PHS-*      rails in phase at every joint, minimal fix
 train_length   RF-LEN-*      trains against reversing sections
-coordination   RF-COORD-*    the reversing race, breaker order, thresholds
+coordination   RF-COORD-*    the reversing race, nested devices, full scale
+draw           RF-COORD-*    thresholds against the trains' running draw
 =============  ============  ==============================================
 
 Example
@@ -29,6 +30,7 @@ from dataclasses import dataclass, field
 
 from sim.checks.coordination import check_coordination
 from sim.checks.coverage import check_coverage
+from sim.checks.draw import check_draw
 from sim.checks.gaps import check_gaps
 from sim.checks.phasing import check_phasing
 from sim.checks.polarity import check_polarity, reversing_cycles
@@ -45,6 +47,7 @@ CHECKS = (
     check_phasing,
     check_train_length,
     check_coordination,
+    check_draw,
 )
 
 SEVERITY_ORDER = {"error": 0, "warning": 1, "info": 2}

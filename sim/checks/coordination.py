@@ -8,6 +8,9 @@ gap before any device upstream of that short reaches its trip delay
 
 Conventions (times after the onset of the short)
 ------------------------------------------------
+The rules model what the device machines do (:mod:`sim.devices.sensing`,
+:mod:`sim.devices.overcurrent`, :mod:`sim.devices.machine`):
+
 * A device with continuous sensing trips ``t_after_s`` after onset.
 * With sampled sensing (period ``Ts``) a delay ``t`` needs ``n = ceil(t/Ts)``
   samples over threshold (``n >= 1``); the first sample at or after the onset
@@ -23,6 +26,11 @@ Conventions (times after the onset of the short)
 * The short current is assumed to exceed every threshold on the short path
   (the static worst case); the fault-current map and the run judge actual
   currents.
+* A dip in the current resets a device's count only if the device sees it: a
+  continuous sensor sees any dip, a sampled one only a dip that holds one of
+  its samples. A dip of ``d`` holds a sample whatever the grid's phase only if
+  ``d > Ts``; a shorter one may fall between two samples and the count runs on
+  as if the current had never stopped (:func:`dip_always_seen`).
 
 Devices on a short path through a reversing device ``r``: the devices in the
 feed chain of each of its sections (its own chain above it; for a reversing
@@ -31,50 +39,66 @@ joints, with their chains; supplies and ``r`` itself are left out, and so is a
 neighbouring reversing controller (it senses the same short; its own trip acts
 only after a swap).
 
+Advice
+------
+A finding of the race names settings that are enough on their own, whatever the
+sample grids' phases: a swap time, a sense delay (a whole number of samples on
+a sampled sensor) and, per upstream device, a trip delay, each rounded to
+0.01 ms on the safe side (:func:`race_advice`, :func:`nested_advice`; the tests
+apply each and run the engine over a range of sample phases).
+
 Codes
 -----
 RF-COORD-001 (error)
     Negative margin: an upstream device trips before the reversing device clears.
 RF-COORD-002 (warning)
-    Margin below the required margin (``require: {margin: ...}``).
+    Margin not above the required margin (``require: {margin: ...}``).
 RF-COORD-003 (info)
     The least margin of a reversing device, when none is short.
 RF-COORD-004 (error)
-    A breaker's (or a reverser's own) trip delay is not shorter than that of a
-    device feeding it: on a hard short the upstream device trips first. A
-    reverser's trip acts on a short its swap does not clear; it is timed from
-    the reclose after the swap, as is the upstream device's second try, so the
-    two delays are compared directly.
+    A nested device is not nominally sooner than a device feeding it on a hard
+    short in its district, the upstream device trips first. A breaker: its trip
+    delay against the upstream one. A reverser (a short its swap does not
+    clear, e.g. a fault inside its section): its sense, swap, dead time and
+    trip delay, against the upstream count, which restarts at the reclose if
+    the swap leaves a dead time and runs on from the onset if it leaves none.
 RF-COORD-005 (warning)
-    Nominal delays are in order, but with sampling jitter the nested device's
-    latest trip is not before the upstream device's earliest.
+    Nominal delays are in order, but on some sample phase the upstream device
+    trips first: sampling jitter, a reverser's dead time shorter than the
+    upstream sample period (it may fall between two samples, so the upstream
+    count runs on from the onset), or a breaker's restart interval shorter
+    than the upstream sample period (the upstream count may run on through its
+    retry).
 RF-COORD-006 (warning)
     A nested device's trip threshold is not lower than that of a device
     feeding it: an overload between the two takes the upstream device down.
 RF-COORD-007 (error)
     A sensing full scale at or below the device's own trip (or sense)
     threshold: the clamped reading never exceeds it, the device can never trip.
-RF-COORD-008 (error)
-    A trip (or reverser sense) threshold below the steady draw of the
-    trains that can be in the device's district at once (every locomotive of
-    every train whose route visits it).
+    The one rule of it: the fault map reports it with this code too.
+RF-COORD-008, RF-COORD-009
+    Thresholds against the running draw: :mod:`sim.checks.draw`.
 """
 from __future__ import annotations
 
 import math
+from dataclasses import dataclass
 from typing import Optional
 
+from sim.devices.sensing import samples_needed
 from sim.model import Finding, Scenario
 
 __all__ = ["check_coordination", "earliest_trip_s", "latest_trip_s", "sampled_count",
-           "clear_time_s", "reversing_margins"]
+           "clear_time_s", "reversing_margins", "dip_always_seen", "Advice", "race_advice",
+           "nested_advice", "full_scale_findings", "full_scale_subjects"]
 
-_EPS = 1e-9
+#: Resolution of the times the advice suggests (s): 0.01 ms.
+ADVICE_STEP_S = 1e-5
 
 
 def sampled_count(t_s: float, period_s: float) -> int:
-    """Samples a delay needs: ``max(1, ceil(t / Ts))`` (with a 1e-9 relative tolerance)."""
-    return max(1, math.ceil(t_s / period_s - _EPS))
+    """Samples a delay needs: ``max(1, ceil(t / Ts))`` (:func:`sim.devices.sensing.samples_needed`)."""
+    return samples_needed(t_s, period_s)
 
 
 def earliest_trip_s(t_s: float, period_s: Optional[float]) -> float:
@@ -91,6 +115,21 @@ def latest_trip_s(t_s: float, period_s: Optional[float]) -> float:
     return sampled_count(t_s, period_s) * period_s
 
 
+def dip_always_seen(dip_s: float, period_s: Optional[float]) -> bool:
+    """Whether a dip of ``dip_s`` resets a device's count whatever its grid's phase.
+
+    A continuous sensor sees any dip longer than the 1 ns time base; a sampled one
+    sees a dip ``[t, t + d)`` only if it holds a sample ``(k + phase) Ts`` more
+    than 1 ns before its end, which every phase gives when ``d > Ts + 1 ns``
+    (:mod:`sim.devices.overcurrent`, ``DefiniteTimer``).
+    """
+    from sim.timebase import T_TOL_S
+
+    if dip_s <= T_TOL_S:
+        return False
+    return not period_s or dip_s > period_s + T_TOL_S
+
+
 def _trip_of(scn: Scenario, name: str):
     """(earliest trip s, nominal s, threshold A, is_curve, period) of a booster/breaker/reverser."""
     dev = scn.device(name)
@@ -99,14 +138,20 @@ def _trip_of(scn: Scenario, name: str):
             trip.curve is not None, period)
 
 
-def clear_time_s(scn: Scenario, name: str) -> tuple[float, str]:
-    """Time to clear of a reverser or reversing booster, and how it was reckoned."""
+def _swap_of(scn: Scenario, name: str):
+    """(sense delay, swap time, dead time, period, key paths of the sense delay and of the
+    swap time) of a reversing device."""
     dev = scn.device(name)
     if name in scn.reversers:
-        t_sense, t_swap = dev.t_sense_s, dev.t_swap_s
-    else:
-        t_sense, t_swap = dev.t_sense_reverse_s, dev.t_swap_s
-    period = dev.sense.period_s
+        return (dev.t_sense_s, dev.t_swap_s, dev.t_dead_s, dev.sense.period_s,
+                ("reversers", name, "sense", "after"), ("reversers", name, "swap_time"))
+    return (dev.t_sense_reverse_s, dev.t_swap_s, 0.0, dev.sense.period_s,
+            ("boosters", name, "reverse", "after"), ("boosters", name, "reverse", "swap_time"))
+
+
+def clear_time_s(scn: Scenario, name: str) -> tuple[float, str]:
+    """Time to clear of a reverser or reversing booster, and how it was reckoned."""
+    t_sense, t_swap, _, period, _, _ = _swap_of(scn, name)
     t_det = latest_trip_s(t_sense, period)
     how = f"sense {t_sense * 1e3:.3g} ms"
     if period:
@@ -119,8 +164,191 @@ def _fmt_ms(t_s: float) -> str:
     return f"{t_s * 1e3:+.3f} ms"
 
 
+def _ms(t_s: float) -> str:
+    return f"{t_s * 1e3:.6g} ms"
+
+
+# ------------------------------------------------------------------ advice
+@dataclass(frozen=True)
+class Advice:
+    """One setting that is enough on its own: ``key`` (a key path of the file, as in
+    ``("reversers", "loop-ctl", "swap_time")``) set to ``value_s`` seconds."""
+
+    key: tuple
+    value_s: float
+    text: str
+
+
+def _below(limit_s: float, strict: bool) -> float:
+    """The largest multiple of 0.01 ms below ``limit_s`` (or at it, when not strict)."""
+    k = math.floor(limit_s / ADVICE_STEP_S + 1e-9)
+    if strict and k * ADVICE_STEP_S >= limit_s - 1e-12:
+        k -= 1
+    return round(k * ADVICE_STEP_S, 12)
+
+
+def _above(limit_s: float, strict: bool) -> float:
+    """The smallest multiple of 0.01 ms above ``limit_s`` (or at it, when not strict)."""
+    k = math.ceil(limit_s / ADVICE_STEP_S - 1e-9)
+    if strict and k * ADVICE_STEP_S <= limit_s + 1e-12:
+        k += 1
+    return round(k * ADVICE_STEP_S, 12)
+
+
+def _delay_latest_below(budget_s: float, period_s: Optional[float], strict: bool,
+                        minimum_s: float = 0.0) -> Optional[float]:
+    """The longest delay whose latest run-out is below ``budget_s`` (None: none is)."""
+    if period_s:
+        n = math.ceil(budget_s / period_s - 1e-9) - 1 if strict else \
+            math.floor(budget_s / period_s + 1e-9)
+        return round(n * period_s, 12) if n >= 1 else None
+    t = _below(budget_s, strict)
+    return t if t > minimum_s else None
+
+
+def _delay_earliest_above(limit_s: float, period_s: Optional[float], strict: bool) -> float:
+    """The shortest delay whose earliest run-out is above ``limit_s``."""
+    if period_s:
+        k = limit_s / period_s
+        n_minus_1 = math.floor(k + 1e-9) + 1 if strict else math.ceil(k - 1e-9)
+        return round((max(n_minus_1, 0) + 1) * period_s, 12)
+    return _above(limit_s, strict)
+
+
+def _table(scn: Scenario, name: str) -> str:
+    return {"booster": "boosters", "breaker": "breakers", "reverser": "reversers"}[
+        scn.device_kind(name)]
+
+
+def race_advice(scn: Scenario, layout, r: str) -> tuple[list[Advice], dict]:
+    """What wins every race of reversing device ``r`` with the required margin.
+
+    Returns
+    -------
+    (own, upstream)
+        ``own``: settings of ``r`` that each win against every upstream device
+        (its swap time; its sense delay). ``upstream``: per upstream device that
+        is short of the margin, the trip delay that wins against ``r`` as it is.
+    """
+    secs = _reversing_devices(scn, layout).get(r, [])
+    req = scn.t_margin_required_s
+    strict = True              # a margin above the required one, never at it
+    t_sense, t_swap, _, period, sense_key, swap_key = _swap_of(scn, r)
+    t_det = latest_trip_s(t_sense, period)
+    t_clear = t_det + t_swap
+    ups = [(d, _trip_of(scn, d)) for d in _upstream_devices(scn, layout, r, secs)]
+    own: list[Advice] = []
+    upstream: dict = {}
+    if not ups:
+        return own, upstream
+    e_min = min(t[0] for _, t in ups)
+    swap_max = _below(e_min - req - t_det, strict)
+    if swap_max > 0.0:
+        own.append(Advice(swap_key, swap_max,
+                          f"set {r}'s swap time to {_ms(swap_max)} or less (now {_ms(t_swap)})"))
+    sense_max = _delay_latest_below(e_min - req - t_swap, period, strict)
+    if sense_max is not None and sense_max < t_sense:
+        grid = f", {round(sense_max / period)} samples of {_ms(period)}" if period else ""
+        own.append(Advice(sense_key, sense_max,
+                          f"set {r}'s sense delay to {_ms(sense_max)}{grid} or less "
+                          f"(now {_ms(t_sense)})"))
+    for d, (t_early, nominal, _, curve, p_d) in ups:
+        if t_early - t_clear > req:
+            continue
+        t_new = _delay_earliest_above(t_clear + req, p_d, strict)
+        grid = f" ({round(t_new / p_d)} samples of {_ms(p_d)})" if p_d else ""
+        upstream[d] = Advice((_table(scn, d), d, "trip", "after"), t_new,
+                             f"set {d}'s trip delay to {_ms(t_new)}{grid} or more "
+                             f"(now {_ms(nominal)})")
+    return own, upstream
+
+
+def nested_advice(scn: Scenario, k: str, u: str) -> list[Advice]:
+    """Settings that each make nested device ``k`` act before upstream ``u`` on a hard
+    short in ``k``'s district, whatever the sample phases (:func:`_nested_times`)."""
+    tk = _nested_times(scn, k, u)
+    out: list[Advice] = []
+    dev_k = scn.device(k)
+    p_k, p_u = dev_k.sense.period_s, scn.device(u).sense.period_s
+    t_k_max = _delay_latest_below(tk["budget_s"], p_k, True)
+    if t_k_max is not None and t_k_max < dev_k.trip.t_after_s:
+        grid = f" ({round(t_k_max / p_k)} samples of {_ms(p_k)})" if p_k else ""
+        out.append(Advice((_table(scn, k), k, "trip", "after"), t_k_max,
+                          f"set {k}'s trip delay to {_ms(t_k_max)}{grid} or less "
+                          f"(now {_ms(dev_k.trip.t_after_s)})"))
+    if tk["dip_key"] is not None and not tk["seen"] and tk["latest_if_seen_s"] < tk["e_u_s"]:
+        dip = _above(p_u, True) if p_u else ADVICE_STEP_S
+        what = "dead time" if k in scn.reversers else "restart interval"
+        out.append(Advice(tk["dip_key"], dip,
+                          f"set {k}'s {what} to {_ms(dip)} or more (now {_ms(tk['dip_s'])}), "
+                          f"so that {u} sees {k} open and counts afresh"))
+    t_u_min = _delay_earliest_above(tk["latest_s"] - tk["restart_s"], p_u, True)
+    if t_u_min > scn.device(u).trip.t_after_s:
+        grid = f" ({round(t_u_min / p_u)} samples of {_ms(p_u)})" if p_u else ""
+        out.append(Advice((_table(scn, u), u, "trip", "after"), t_u_min,
+                          f"set {u}'s trip delay to {_ms(t_u_min)}{grid} or more "
+                          f"(now {_ms(scn.device(u).trip.t_after_s)})"))
+    return out
+
+
+def _nested_times(scn: Scenario, k: str, u: str) -> dict:
+    """The hard-short timeline of nested ``k`` under upstream ``u`` (times after onset).
+
+    A breaker trips at ``[e_k, l_k]``; the current stops until its restart
+    (a dip of its first restart wait, none for a manual restart) and the
+    upstream count is judged on the trip itself. A reverser first swaps (a short
+    its swap does not clear), stays open for its dead time (the dip) and times
+    its trip from the reclose ``R``: it trips at ``R + [e_k, l_k]``. The
+    upstream count restarts at ``R`` if it surely sees the dip, else it runs on
+    from the onset (:func:`dip_always_seen`).
+
+    Returns a dict: ``latest_s`` (k's latest action that matters), ``e_u_s``
+    (u's earliest trip on the same time axis), ``budget_s`` (what k's own trip
+    delay must stay below), ``restart_s`` (when u's count starts), ``seen``,
+    ``dip_s``, ``dip_key`` (key path of the dip setting), ``latest_if_seen_s``,
+    and the nominal (phase-free) ``nominal_k_s``, ``nominal_u_s``.
+    """
+    dev = scn.device(k)
+    du = scn.device(u)
+    p_k, p_u = dev.sense.period_s, du.sense.period_s
+    l_k = latest_trip_s(dev.trip.t_after_s, p_k)
+    e_u = earliest_trip_s(du.trip.t_after_s, p_u)
+    if k in scn.reversers:
+        t_sense, t_swap, t_dead, p_s, _, _ = _swap_of(scn, k)
+        r_late = latest_trip_s(t_sense, p_s) + t_swap + t_dead
+        seen = dip_always_seen(t_dead, p_u)
+        start_u = r_late if seen else 0.0       # where u's count starts
+        return {"latest_s": r_late + l_k, "e_u_s": start_u + e_u,
+                "budget_s": start_u + e_u - r_late, "restart_s": start_u,
+                "seen": seen, "dip_s": t_dead, "dip_key": ("reversers", k, "dead_time"),
+                "latest_if_seen_s": l_k,
+                "nominal_k_s": dev.trip.t_after_s + (0.0 if t_dead > 0.0 else
+                                                      t_sense + t_swap),
+                "nominal_u_s": du.trip.t_after_s}
+    wait = _first_wait_s(dev.restart)
+    seen = wait is None or dip_always_seen(wait, p_u)
+    return {"latest_s": l_k, "e_u_s": e_u, "budget_s": e_u, "restart_s": 0.0,
+            "seen": seen, "dip_s": wait, "latest_if_seen_s": l_k,
+            "dip_key": None if wait is None else
+            ("breakers", k, "restart", "every" if dev.restart.policy == "retry" else "first"),
+            "nominal_k_s": dev.trip.t_after_s, "nominal_u_s": du.trip.t_after_s}
+
+
+def _first_wait_s(restart) -> Optional[float]:
+    """The first restart wait of a policy (None for a manual restart)."""
+    if restart.policy == "retry":
+        return restart.every_s
+    if restart.policy == "backoff":
+        return min(restart.first_s, restart.cap_s)
+    return None
+
+
+# ------------------------------------------------------------------ race
 def _reversing_devices(scn: Scenario, layout) -> dict[str, list[str]]:
     """Reversing device -> its sections (reversers, and boosters with reverse_on_short)."""
+    key = "reversing_devices"
+    if key in layout.cache:
+        return layout.cache[key]
     out: dict[str, list[str]] = {}
     for s in scn.track.sections:
         chain = layout.device_chain(s)
@@ -132,6 +360,7 @@ def _reversing_devices(scn: Scenario, layout) -> dict[str, list[str]]:
             out.setdefault(rv, []).append(s)
     for r in scn.reversers:
         out.setdefault(r, [])
+    layout.cache[key] = out
     return out
 
 
@@ -180,8 +409,9 @@ def _race(scn: Scenario, layout) -> list[Finding]:
         if not rows:
             continue
         rows.sort()
-        short = False
-        for margin, d, t_trip, nominal, curve, period in rows:
+        short = [row for row in rows if row[0] <= 0.0 or row[0] <= req]
+        own, upstream = race_advice(scn, layout, r) if short else ([], {})
+        for margin, d, t_trip, nominal, curve, period in short:
             trip_how = f"{t_trip * 1e3:.3g} ms after onset"
             if period:
                 trip_how += f" (delay {nominal * 1e3:.3g} ms sampled every {period * 1e3:.3g} ms)"
@@ -190,19 +420,20 @@ def _race(scn: Scenario, layout) -> list[Finding]:
             text = (f"{kind} {r} clears a short at its gap {t_clear * 1e3:.3g} ms after "
                     f"onset ({how}); {scn.device_kind(d)} {d} can trip {trip_how}: "
                     f"margin {_fmt_ms(margin)}")
-            if margin < 0:
-                short = True
+            options = [a.text for a in own] + ([upstream[d].text] if d in upstream else [])
+            need = (f"the race by more than the required {req * 1e3:.3g} ms" if req > 0
+                    else "the race")
+            fix = (f"any one of these wins {need} whatever the sample phases: "
+                   + "; or ".join(options)) if options else \
+                f"no single setting of {r} or {d} wins {need}: change the devices"
+            if margin <= 0:
                 findings.append(Finding(
                     "error", "RF-COORD-001", where,
-                    text + f": {d} trips first and the train stops",
-                    f"make {r} clear faster by more than {-margin * 1e3:.3f} ms (a shorter "
-                    f"sense delay or swap time) or lengthen {d}'s trip delay"))
-            elif margin < req:
-                short = True
+                    text + f": {d} trips first and the train stops", fix))
+            else:
                 findings.append(Finding(
                     "warning", "RF-COORD-002", where,
-                    text + f", below the required {req * 1e3:.3g} ms",
-                    f"gain {(req - margin) * 1e3:.3f} ms: a faster {r} or a slower {d}"))
+                    text + f", below the required {req * 1e3:.3g} ms", fix))
         if not short:
             margin, d, t_trip, nominal, curve, period = rows[0]
             findings.append(Finding(
@@ -214,37 +445,58 @@ def _race(scn: Scenario, layout) -> list[Finding]:
     return findings
 
 
-def _breakers(scn: Scenario) -> list[Finding]:
+# ------------------------------------------------------------- nested
+def _nested(scn: Scenario) -> list[Finding]:
     findings = []
     nested = [("breaker", k, d) for k, d in scn.breakers.items()] + \
         [("reverser", k, d) for k, d in scn.reversers.items()]
     for own, k, brk in nested:
-        tk_nom, tk_late = brk.trip.t_after_s, latest_trip_s(brk.trip.t_after_s,
-                                                             brk.sense.period_s)
         where = scn.where(own + "s", k, "trip")
-        when = (" on a short that its swap does not clear (timed from the reclose after "
-                "the swap)" if own == "reverser" else "")
         for u in scn.upstream(k):
             if u not in scn.boosters and u not in scn.breakers:
                 continue
-            t_early, tu_nom, iu, _, _ = _trip_of(scn, u)
             kind = scn.device_kind(u)
-            if tk_nom >= tu_nom:
+            tl = _nested_times(scn, k, u)
+            iu = scn.device(u).trip.i_above_a
+            if own == "reverser":
+                when = (f" on a short its swap does not clear (a fault in its section): it "
+                        f"senses, swaps in {_ms(brk.t_swap_s)}, ")
+                when += (f"stays open {_ms(brk.t_dead_s)} and times its trip from the "
+                         f"reclose" if brk.t_dead_s > 0 else
+                         "recloses at once and times its trip from then, while the current "
+                         f"through {u} never stops")
+            else:
+                when = ""
+            advice = "; or ".join(a.text for a in nested_advice(scn, k, u))
+            fix = f"any one of: {advice}" if advice else f"set {k}'s trip delay shorter"
+            nominal_k, nominal_u = tl["nominal_k_s"], tl["nominal_u_s"]
+            if nominal_k >= nominal_u:
                 findings.append(Finding(
                     "error", "RF-COORD-004", where,
-                    f"{own} {k} trips after {tk_nom * 1e3:.3g} ms, not sooner than the "
-                    f"{kind} {u} feeding it ({tu_nom * 1e3:.3g} ms){when}: on a hard short "
-                    f"in {k}'s district {u} trips first (TM 5-811-14 4-1: the device "
-                    f"nearest the fault must operate first)",
-                    f"set {k}'s trip delay below {tu_nom * 1e3:.3g} ms"))
-            elif tk_late >= t_early:
+                    f"{own} {k} trips after {brk.trip.t_after_s * 1e3:.3g} ms"
+                    + (f" ({_ms(nominal_k)} after the onset)" if nominal_k !=
+                       brk.trip.t_after_s else "")
+                    + f", not sooner than the {kind} {u} feeding it "
+                    f"({nominal_u * 1e3:.3g} ms){when}: on a hard short in {k}'s district "
+                    f"{u} trips first (TM 5-811-14 4-1: the device nearest the fault must "
+                    f"operate first)", fix))
+            elif tl["latest_s"] >= tl["e_u_s"]:
+                why = "sampling jitter"
+                if tl["dip_s"] is not None and not tl["seen"]:
+                    what = "dead time" if own == "reverser" else "restart interval"
+                    why = (f"its {what} of {_ms(tl['dip_s'])} may fall between two of "
+                           f"{u}'s samples, so {u} counts on from the onset")
                 findings.append(Finding(
                     "warning", "RF-COORD-005", where,
-                    f"{own} {k} may trip as late as {tk_late * 1e3:.3g} ms, and {kind} {u} "
-                    f"feeding it as early as {t_early * 1e3:.3g} ms (sampling jitter){when}: "
-                    f"{u} may trip first",
-                    f"set {k}'s trip delay below {t_early * 1e3:.3g} ms minus one sample "
-                    f"period"))
+                    f"{own} {k} may trip as late as {_ms(tl['latest_s'])} after the onset, "
+                    f"and {kind} {u} feeding it as early as {_ms(tl['e_u_s'])}{when} "
+                    f"({why}): {u} may trip first", fix))
+            elif own == "breaker" and not tl["seen"]:
+                findings.append(Finding(
+                    "warning", "RF-COORD-005", where,
+                    f"breaker {k} retries after {_ms(tl['dip_s'])}, shorter than {kind} "
+                    f"{u}'s sample period: {u} may not see {k} open and counts on through "
+                    f"the retry: {u} may trip first", fix))
             if brk.trip.i_above_a >= iu:
                 findings.append(Finding(
                     "warning", "RF-COORD-006", where,
@@ -255,8 +507,19 @@ def _breakers(scn: Scenario) -> list[Finding]:
     return findings
 
 
-def _full_scale(scn: Scenario) -> list[Finding]:
-    findings = []
+# ----------------------------------------------------------- full scale
+def full_scale_findings(scn: Scenario) -> list[Finding]:
+    """RF-COORD-007: a sensing full scale at or below a threshold of the same device.
+
+    The one place of this rule: ``railfault check`` and ``railfault faultmap``
+    both report it from here.
+    """
+    return [f for f, _, _ in full_scale_subjects(scn)]
+
+
+def full_scale_subjects(scn: Scenario) -> list:
+    """``[(finding, table, device)]`` of :func:`full_scale_findings`."""
+    out = []
     for table, kind in ((scn.boosters, "boosters"), (scn.breakers, "breakers"),
                         (scn.reversers, "reversers")):
         for name, dev in table.items():
@@ -268,50 +531,17 @@ def _full_scale(scn: Scenario) -> list[Finding]:
                 levels.append(("reverse sense threshold", dev.sense_reverse_a))
             for what, level in levels:
                 if fs <= level:
-                    findings.append(Finding(
+                    out.append((Finding(
                         "error", "RF-COORD-007", scn.where(kind, name, "sense"),
                         f"{kind[:-1]} {name} reads at most {fs:g} A (full scale) but its "
                         f"{what} is {level:g} A: the clamped reading never exceeds it, so "
                         f"it can never act",
-                        f"raise the full scale above {level:g} A or lower the {what}"))
-    return findings
-
-
-def _draw(scn: Scenario, layout) -> list[Finding]:
-    findings = []
-    train_draw = {}
-    visits: dict[str, set] = {}
-    for tname, tr in scn.trains.items():
-        train_draw[tname] = sum(scn.rolling_stock[v].draw_a for v in tr.consist
-                                if v in scn.rolling_stock)
-        for st in (tr.start.section,) + tuple(tr.route):
-            if isinstance(st, str) and st in scn.track.sections:
-                for d in layout.device_chain(st):
-                    visits.setdefault(d, set()).add(tname)
-    for d, trains in visits.items():
-        kind = scn.device_kind(d)
-        if kind not in ("booster", "breaker", "reverser"):
-            continue
-        total = sum(train_draw[t] for t in trains)
-        if total <= 0:
-            continue
-        dev = scn.device(d)
-        levels = [("trip threshold", dev.trip.i_above_a, "trip")]
-        if kind == "reverser":
-            levels.append(("sense threshold", dev.sense_above_a, "sense"))
-        names = ", ".join(sorted(trains))
-        for what, level, key in levels:
-            if level < total:
-                findings.append(Finding(
-                    "error", "RF-COORD-008", scn.where(kind + "s", d, key),
-                    f"{kind} {d} has a {what} of {level:g} A, but the trains that can be in "
-                    f"its district at once ({names}) draw {total:g} A steadily: it acts on "
-                    f"normal running",
-                    f"raise the {what} above {total:g} A or split the district"))
-    return findings
+                        f"raise the full scale above {level:g} A or lower the {what}"),
+                        kind, name))
+    return out
 
 
 def check_coordination(scn: Scenario, layout) -> list[Finding]:
-    """The reversing race (RF-COORD-001..003), breaker order (-004..006), full scale
-    (-007) and thresholds against the running draw (-008)."""
-    return _race(scn, layout) + _breakers(scn) + _full_scale(scn) + _draw(scn, layout)
+    """The reversing race (RF-COORD-001..003), nested devices against their upstream
+    ones (-004..006) and the sensing full scale (-007)."""
+    return _race(scn, layout) + _nested(scn) + full_scale_findings(scn)

@@ -10,6 +10,12 @@ joint (or one gapped on one rail only) out of phase is a short at all times.
 Reverser-fed sections and those of a booster with ``reverse_on_short`` change
 phase by design and are left out.
 
+``leads`` is the orientation of a section's feeders as built, seen from ``a``
+to ``b`` (``scenario-format.md``). A section whose file gives no ``leads`` is
+not wired yet: its orientation is a free variable that the tool chooses
+(:func:`solve_phases`, listed on the wiring sheet by :mod:`sim.checks.wiring`),
+never a setting to change, so it is never called mis-phased.
+
 Every joint between two fixed-phase sections is a constraint (bonded and
 gapped alike; a bonded joint between two *districts* is also an RF-GAP-001
 error, a separate matter).
@@ -19,33 +25,44 @@ Codes
 RF-PHS-001 (error)
     The rails meet out of phase at one or more joints. One finding per group
     of joints that one change can mend, with the change of the fewest settings
-    (invert a booster, or swap a section's leads).
+    (invert a booster, or swap the leads of a section whose file gives them).
 
-Minimal fix
------------
-Signed 2-colouring: the constraint graph (fed sections as nodes, joints as
-signed edges) is colourable in each connected component ``C`` up to a global
-flip ``eps_C``; the variables are ``eps_C`` and a flip ``delta_b`` of every
-booster. Given them, a section ``p`` of booster ``b`` needs its leads swapped
-iff ``delta_b * eps_C * phase(p) * colour(p) == -1``. The cost (settings
-changed, then settings left away from normal, so that a change that restores
-``normal`` wins a tie) is separable on either side once the other is fixed, so
-the side with fewer variables is enumerated exhaustively (exact for up to 12
-of them, which covers any layout with at most 12 boosters or 12 components in
-one coupled group); beyond that a coordinate descent from the current settings
-is used. A component that cannot be 2-coloured holds an unbalanced cycle: that
-is the polarity check's finding (RF-POL-001), not reported again here.
+Minimal fix and the chosen orientations
+---------------------------------------
+Signed 2-colouring (:func:`sim.checks.polarity.signed_colouring`, the one that
+finds reversing loops): the constraint graph (fed sections as nodes, joints as
+signed edges) is coloured first along its bonded joints and then across its
+gapped ones, so that where the graph is unbalanced (a reversing loop without a
+reversing section, RF-POL-001) the out-of-phase joint falls on a gap when one
+can. Each connected component ``C`` is coloured up to a global flip ``eps_C``;
+the variables are ``eps_C`` and a flip ``delta_b`` of every booster. Given
+them, a section ``p`` of booster ``b`` whose leads are given needs them swapped
+iff ``delta_b * eps_C * phase(p) * colour(p) == -1``; a section without leads
+gets ``leads = delta_b * eps_C * phase(b) * colour(p)``. The cost, compared in
+order, is the settings changed, then settings moved away from normal (so that a
+change that restores ``normal`` wins a tie), then the chosen orientations that
+are ``swapped``. When every component's given sections already agree, no
+booster flip can lower it and ``delta = 1`` is taken at once (the common case:
+cost linear in the layout). Otherwise the cost is separable on either side once
+the other is fixed, so the side with fewer variables is enumerated exhaustively
+(exact for up to 12 of them, which covers any layout with at most 12 boosters
+or 12 components in one coupled group); beyond that a coordinate descent from
+the current settings is used. A component that cannot be 2-coloured holds an
+unbalanced cycle: that is the polarity check's finding (RF-POL-001), not
+reported again here.
 """
 from __future__ import annotations
 
 import itertools
 from collections import deque
+from dataclasses import dataclass, field
 
 from sim.checks.polarity import reversing_sections, signed_colouring
 from sim.layout import joint_where
 from sim.model import Finding, Scenario
 
-__all__ = ["check_phasing", "section_phases"]
+__all__ = ["check_phasing", "section_phases", "solve_phases", "PhaseSolution",
+           "phasing_subjects"]
 
 _EXACT = 12
 
@@ -65,8 +82,35 @@ class _SignedAdjacency:
         return iter(self._adj)
 
 
+@dataclass
+class PhaseSolution:
+    """The phases of the fixed-phase track, as :func:`solve_phases` finds them.
+
+    Attributes
+    ----------
+    booster : dict
+        Fed fixed-phase section -> the booster at the top of its chain.
+    rep : dict
+        Fixed-phase section -> ``(fed section, sign)`` it takes its phase from
+        (itself and +1 for a fed one).
+    leads : dict
+        Fed fixed-phase section -> its leads (+1/-1): as given, or as chosen.
+    chosen : frozenset
+        The sections whose leads the tool chose (the file gave none).
+    groups : list of (Finding, tuple of Joint)
+        One RF-PHS-001 finding per coupled group with joints out of phase now,
+        and those joints.
+    """
+
+    booster: dict = field(default_factory=dict)
+    rep: dict = field(default_factory=dict)
+    leads: dict = field(default_factory=dict)
+    chosen: frozenset = frozenset()
+    groups: list = field(default_factory=list)
+
+
 def _reps(scn: Scenario, layout):
-    """(rep, sign) of every fixed-phase section with a booster at the top of its chain."""
+    """(booster, rep) of every fixed-phase section with a booster at the top of its chain."""
     rev = reversing_sections(scn, layout)
     secs = scn.track.sections
     booster = {}
@@ -90,14 +134,183 @@ def _reps(scn: Scenario, layout):
     return booster, rep
 
 
-def section_phases(scn: Scenario, layout) -> dict[str, int]:
-    """Current phase (+1/-1) of every fixed-phase section that has one."""
+def _bonded_first_colouring(nodes, edges):
+    """Signed colouring along bonded joints first, then across gapped ones.
+
+    Returns ``(colour, components, frustrated component indices)``.
+    """
+    bonded = [e for e in edges if e[3]["joint"].gaps != "both"]
+    col1 = signed_colouring(_SignedAdjacency(nodes, bonded))
+    part_of = {}
+    for i, comp in enumerate(col1.components):
+        for p in comp:
+            part_of[p] = i
+    quotient = []
+    for u, w, k, data in edges:
+        if data["joint"].gaps == "both":
+            sign = data["sign"] * col1.colour[u] * col1.colour[w]
+            quotient.append((part_of[u], part_of[w], k, {"sign": sign}))
+    col2 = signed_colouring(_SignedAdjacency(range(len(col1.components)), quotient))
+    colour = {p: col1.colour[p] * col2.colour[part_of[p]] for p in nodes}
+    comps, bad = [], set()
+    bad_parts = {part_of[u] for u, _, _ in col1.frustrated}
+    bad_quot = {u for u, _, _ in col2.frustrated}
+    for i, group in enumerate(col2.components):
+        comps.append([p for q in group for p in col1.components[q]])
+        if bad_quot & set(group) or bad_parts & set(group):
+            bad.add(i)
+    return colour, comps, bad
+
+
+def solve_phases(scn: Scenario, layout) -> PhaseSolution:
+    """Leads of every fed fixed-phase section (given or chosen) and the RF-PHS-001 groups.
+
+    Cached in ``layout.cache``; see the module docstring for the method.
+    """
+    key = "phase_solution"
+    if key in layout.cache:
+        return layout.cache[key]
     booster, rep = _reps(scn, layout)
     secs = scn.track.sections
-    out = {}
-    for s, (p, sg) in rep.items():
-        out[s] = sg * scn.boosters[booster[p]].phase * secs[p].leads
-    return out
+    bph = {b: scn.boosters[b].phase for b in set(booster.values())}
+    given = {p: secs[p].leads for p in booster if secs[p].leads is not None}
+    free = [p for p in booster if p not in given]
+    edges = []
+    for j in scn.track.joints:
+        x, y = j.ends[0].section, j.ends[1].section
+        if x not in rep or y not in rep:
+            continue
+        (p, sx), (q, sy) = rep[x], rep[y]
+        if p == q:
+            continue
+        edges.append((p, q, j.index, {"sign": j.sign * sx * sy, "joint": j}))
+    colour, comps, bad = _bonded_first_colouring(list(booster), edges)
+    # c[p]: the component flip a given section agrees with when its booster is not flipped
+    c = {p: bph[booster[p]] * given[p] * colour[p] for p in given}
+    comp_of = {p: i for i, comp in enumerate(comps) for p in comp}
+
+    def free_cost(comp, delta, eps):
+        return sum(delta.get(booster[p], 1) * eps * bph[booster[p]] * colour[p] < 0
+                   for p in comp if p not in given)
+
+    def best_eps(i, delta):
+        comp = comps[i]
+        return min((+1, -1), key=lambda e: (
+            sum(delta.get(booster[p], 1) * e != c[p] for p in comp if p in given),
+            sum(delta.get(booster[p], 1) * e != c[p] and given[p] > 0
+                for p in comp if p in given),
+            free_cost(comp, delta, e)))
+
+    delta: dict = {}
+    agree = all(len({c[p] for p in comps[i] if p in given}) <= 1
+                for i in range(len(comps)) if i not in bad)
+    groups: list = []
+    if not agree:
+        delta, groups = _coupled_groups(scn, comps, bad, booster, bph, c, given, colour,
+                                        best_eps, free_cost)
+    eps = {i: best_eps(i, delta) for i in range(len(comps))}
+    leads = dict(given)
+    for p in free:
+        i = comp_of[p]
+        leads[p] = delta.get(booster[p], 1) * eps[i] * bph[booster[p]] * colour[p]
+    sol = PhaseSolution(booster, rep, leads, frozenset(free))
+    for members, bs in groups:
+        sections = {p for i in members for p in comps[i]}
+        sol.groups.append(_group_finding(scn, sol, edges, sections, bs, delta,
+                                         lambda p: eps[comp_of[p]], c, bph))
+    layout.cache[key] = sol
+    return sol
+
+
+def _coupled_groups(scn, comps, bad, booster, bph, c, given, colour, best_eps, free_cost):
+    """The fewest-changes booster flips of every group of components coupled through a
+    booster, for the groups where the given leads disagree; ``(delta, groups)`` with
+    ``groups`` the component indices of each such group."""
+    parent: dict = {}
+
+    def find(x):
+        while parent.setdefault(x, x) != x:
+            parent[x] = parent[parent[x]]
+            x = parent[x]
+        return x
+
+    for i, comp in enumerate(comps):
+        if i in bad:
+            continue
+        for p in comp:
+            parent[find(("C", i))] = find(("B", booster[p]))
+    coupled: dict = {}
+    for i in range(len(comps)):
+        if i not in bad:
+            coupled.setdefault(find(("C", i)), []).append(i)
+    delta: dict = {}
+    groups = []
+    for members in coupled.values():
+        if all(len({c[p] for p in comps[i] if p in given}) <= 1 for i in members):
+            continue
+        bs = sorted({booster[p] for i in members for p in comps[i]})
+
+        def comp_cost(i, dl, e):
+            chg = away = 0
+            for p in comps[i]:
+                if p in given and dl[booster[p]] * e != c[p]:
+                    chg += 1
+                    away += given[p] > 0          # a normal lead would become swapped
+            return chg, away, free_cost(comps[i], dl, e)
+
+        def total(dl, ep):
+            chg = away = fsw = 0
+            for b in bs:
+                if dl[b] < 0:
+                    chg += 1
+                    away += bph[b] > 0
+            for i in members:
+                x, y, z = comp_cost(i, dl, ep[i])
+                chg, away, fsw = chg + x, away + y, fsw + z
+            return chg, away, fsw
+
+        def eps_for(dl):
+            return {i: best_eps(i, dl) for i in members}
+
+        candidates = []
+        if len(bs) <= _EXACT:
+            for flips in itertools.product((+1, -1), repeat=len(bs)):
+                dl = dict(zip(bs, flips))
+                candidates.append((dl, eps_for(dl)))
+        elif len(members) <= _EXACT:
+            for flips in itertools.product((+1, -1), repeat=len(members)):
+                ep = dict(zip(members, flips))
+                dl = {}
+                for b in bs:
+                    def cost(d, b=b):
+                        x = y = 0
+                        if d < 0:
+                            x, y = 1, int(bph[b] > 0)
+                        for i in members:
+                            for p in comps[i]:
+                                if booster[p] == b and p in given and d * ep[i] != c[p]:
+                                    x += 1
+                                    y += given[p] > 0
+                        return x, y
+                    dl[b] = min((+1, -1), key=cost)
+                candidates.append((dl, ep))
+        else:
+            dl = {b: 1 for b in bs}
+            ep = eps_for(dl)
+            improved = True
+            while improved:
+                improved = False
+                for b in bs:
+                    trial = dict(dl)
+                    trial[b] = -trial[b]
+                    tep = eps_for(trial)
+                    if total(trial, tep) < total(dl, ep):
+                        dl, ep, improved = trial, tep, True
+            candidates.append((dl, ep))
+        best = min(candidates, key=lambda de: total(*de))
+        delta.update(best[0])
+        groups.append((members, bs))
+    return delta, groups
 
 
 def _word(v: int, kind: str) -> str:
@@ -106,154 +319,21 @@ def _word(v: int, kind: str) -> str:
     return "normal" if v > 0 else "inverted"
 
 
-def check_phasing(scn: Scenario, layout) -> list[Finding]:
-    """Joints whose rails meet out of phase, with the fewest changes that mend them."""
-    booster, rep = _reps(scn, layout)
+def _group_finding(scn, sol, edges, sections, bs, delta, eps_of, c, bph):
+    """The RF-PHS-001 finding of one coupled group and the joints out of phase now."""
     secs = scn.track.sections
-    bph = {b: scn.boosters[b].phase for b in set(booster.values())}
-    cur = {p: bph[booster[p]] * secs[p].leads for p in booster}
-    constraints = []
-    in_phase = True
-    for j in scn.track.joints:
-        x, y = j.ends[0].section, j.ends[1].section
-        if x not in rep or y not in rep:
-            continue
-        (p, sx), (q, sy) = rep[x], rep[y]
-        if p == q:
-            continue
-        sign = j.sign * sx * sy
-        constraints.append((p, q, sign, j))
-        if cur[p] != sign * cur[q]:
-            in_phase = False
-    if in_phase:
-        return []                          # every joint in phase: nothing to mend
-    edges = [(p, q, j.index, {"sign": sign, "joint": j}) for p, q, sign, j in constraints]
-    cg = _SignedAdjacency(booster, edges)
-    col = signed_colouring(cg)
-    bad_comp = set()
-    comp_of = {}
-    for i, comp in enumerate(col.components):
-        for p in comp:
-            comp_of[p] = i
-    for u, _, _ in col.frustrated:
-        bad_comp.add(comp_of[u])           # unbalanced: polarity reports it
-    c = {p: cur[p] * col.colour[p] for p in booster}
-    violated = {}
-    for i, comp in enumerate(col.components):
-        if i in bad_comp:
-            continue
-        if len({c[p] for p in comp}) > 1:
-            violated[i] = comp
-    if not violated:
-        return []
-    # couple components through shared boosters (union-find)
-    parent = {}
-
-    def find(x):
-        while parent.setdefault(x, x) != x:
-            parent[x] = parent[parent[x]]
-            x = parent[x]
-        return x
-
-    for i, comp in enumerate(col.components):
-        if i in bad_comp:
-            continue
-        for p in comp:
-            parent[find(("C", i))] = find(("B", booster[p]))
-    groups: dict = {}
-    for i, comp in enumerate(col.components):
-        if i not in bad_comp:
-            groups.setdefault(find(("C", i)), []).append(i)
-    findings = []
-    for root, comps in groups.items():
-        if not any(i in violated for i in comps):
-            continue
-        findings.append(_solve_group(scn, comps, col, booster, bph, c, cg, secs))
-    return findings
-
-
-def _solve_group(scn, comps, col, booster, bph, c, cg, secs) -> Finding:
-    members = {i: col.components[i] for i in comps}
-    boosters = sorted({booster[p] for i in comps for p in members[i]})
-
-    def comp_cost(i, delta, eps):
-        chg = away = 0
-        for p in members[i]:
-            if delta[booster[p]] * eps != c[p]:
-                chg += 1
-                away += secs[p].leads > 0      # a normal lead would become swapped
-        return chg, away
-
-    def booster_cost(b, d):
-        return (1, int(bph[b] * d < 0)) if d < 0 else (0, 0)
-
-    def total(delta, eps):
-        chg = away = 0
-        for b in boosters:
-            x, y = booster_cost(b, delta[b])
-            chg, away = chg + x, away + y
-        for i in comps:
-            x, y = comp_cost(i, delta, eps[i])
-            chg, away = chg + x, away + y
-        return chg, away
-
-    def best_eps(delta):
-        return {i: min((+1, -1), key=lambda e: comp_cost(i, delta, e)) for i in comps}
-
-    def best_delta(eps):
-        out = {}
-        for b in boosters:
-            def cost(d, b=b):
-                x, y = booster_cost(b, d)
-                for i in comps:
-                    for p in members[i]:
-                        if booster[p] == b and d * eps[i] != c[p]:
-                            x += 1
-                            y += secs[p].leads > 0
-                return x, y
-            out[b] = min((+1, -1), key=cost)
-        return out
-
-    candidates = []
-    if len(boosters) <= _EXACT:
-        for flips in itertools.product((+1, -1), repeat=len(boosters)):
-            delta = dict(zip(boosters, flips))
-            candidates.append((delta, best_eps(delta)))
-    elif len(comps) <= _EXACT:
-        for flips in itertools.product((+1, -1), repeat=len(comps)):
-            eps = dict(zip(comps, flips))
-            candidates.append((best_delta(eps), eps))
-    else:
-        delta = {b: 1 for b in boosters}
-        eps = best_eps(delta)
-        improved = True
-        while improved:
-            improved = False
-            for b in boosters:
-                trial = dict(delta)
-                trial[b] = -trial[b]
-                teps = best_eps(trial)
-                if total(trial, teps) < total(delta, eps):
-                    delta, eps, improved = trial, teps, True
-        candidates.append((delta, eps))
-    delta, eps = min(candidates, key=lambda de: total(*de))
-    fixes = []
-    for b in boosters:
-        if delta[b] < 0:
-            fixes.append(f"booster {b}: phase {_word(bph[b], 'phase')} -> "
-                         f"{_word(-bph[b], 'phase')}")
-    for i in comps:
-        for p in members[i]:
-            if delta[booster[p]] * eps[i] != c[p]:
-                fixes.append(f"section {p}: leads {_word(secs[p].leads, 'leads')} -> "
-                             f"{_word(-secs[p].leads, 'leads')}")
-    # the joints out of phase now
+    booster, leads = sol.booster, sol.leads
+    fixes = [f"booster {b}: phase {_word(bph[b], 'phase')} -> {_word(-bph[b], 'phase')}"
+             for b in bs if delta.get(b, 1) < 0]
+    for p in sorted(sections, key=list(secs).index):
+        if p in c and delta.get(booster[p], 1) * eps_of(p) != c[p]:
+            fixes.append(f"section {p}: leads {_word(secs[p].leads, 'leads')} -> "
+                         f"{_word(-secs[p].leads, 'leads')}")
     bad = []
-    sub = set().union(*members.values())
-    for u, w, k, data in cg.edges:
-        if u in sub and w in sub:
-            pu = bph[booster[u]] * secs[u].leads
-            pw = bph[booster[w]] * secs[w].leads
+    for u, w, k, data in edges:
+        if u in sections and w in sections:
+            pu = bph[booster[u]] * leads[u]
+            pw = bph[booster[w]] * leads[w]
             if pu != data["sign"] * pw:
                 bad.append(data["joint"])
     bad.sort(key=lambda j: j.index)
@@ -265,10 +345,30 @@ def _solve_group(scn, comps, col, booster, bph, c, cg, secs) -> Finding:
         return f"{j.name} ({kind})"
 
     shown = ", ".join(desc(j) for j in bad[:6]) + (" ..." if len(bad) > 6 else "")
-    first = bad[0]
-    n_chg = total(delta, eps)[0]
-    return Finding(
-        "error", "RF-PHS-001", joint_where(scn, first),
+    n_chg = len(fixes)
+    finding = Finding(
+        "error", "RF-PHS-001", joint_where(scn, bad[0]),
         f"the rails meet out of phase at {len(bad)} joint{'s' if len(bad) > 1 else ''}: "
         f"{shown}",
         f"change {n_chg} setting{'s' if n_chg > 1 else ''}: " + "; ".join(fixes))
+    return finding, tuple(bad)
+
+
+def section_phases(scn: Scenario, layout) -> dict[str, int]:
+    """Current phase (+1/-1) of every fixed-phase section that has one (chosen leads for
+    the sections whose file gives none)."""
+    sol = solve_phases(scn, layout)
+    out = {}
+    for s, (p, sg) in sol.rep.items():
+        out[s] = sg * scn.boosters[sol.booster[p]].phase * sol.leads[p]
+    return out
+
+
+def phasing_subjects(scn: Scenario, layout) -> list:
+    """``[(finding, joints)]``: each RF-PHS-001 finding and the joints it names."""
+    return list(solve_phases(scn, layout).groups)
+
+
+def check_phasing(scn: Scenario, layout) -> list[Finding]:
+    """Joints whose rails meet out of phase, with the fewest changes that mend them."""
+    return [f for f, _ in solve_phases(scn, layout).groups]

@@ -59,7 +59,7 @@ from sim.model import Finding, Scenario
 
 __all__ = ["check_polarity", "reversing_sections", "reverser_of", "signed_colouring",
            "is_balanced", "shortest_unbalanced_cycle", "reversing_cycles",
-           "sections_on_unbalanced_cycles", "Colouring"]
+           "sections_on_unbalanced_cycles", "Colouring", "polarity_subjects"]
 
 
 # ----------------------------------------------------------- feed helpers
@@ -89,7 +89,8 @@ def reversing_sections(scn: Scenario, layout) -> frozenset:
 # --------------------------------------------------------- signed graphs
 def _raw_adj(graph):
     """The adjacency dicts of a networkx graph (read only), without the view layer."""
-    return getattr(graph, "_adj", None) or graph.adj
+    adj = getattr(graph, "_adj", None)
+    return adj if adj is not None else graph.adj
 
 
 class Colouring:
@@ -386,9 +387,24 @@ def _arrow(nodes) -> str:
 
 
 def check_polarity(scn: Scenario, layout) -> list[Finding]:
-    """Report every unbalanced part of the fixed-polarity track (RF-POL-001) and the
-    reversing loops found and handled (RF-POL-002)."""
-    findings: list[Finding] = []
+    """Report every unbalanced part of the fixed-polarity track (RF-POL-001), loops that
+    lie in one reversing district (RF-POL-003) and the reversing loops found and
+    handled (RF-POL-002)."""
+    return [f for f, _ in _polarity(scn, layout)]
+
+
+def polarity_subjects(scn: Scenario, layout) -> list:
+    """``[(finding, sections)]``: each RF-POL-001 and RF-POL-003 finding and the
+    sections of the part (or reversing district) whose loop it reports."""
+    return [(f, secs) for f, secs in _polarity(scn, layout) if secs]
+
+
+def _polarity(scn: Scenario, layout) -> list:
+    """The polarity findings with the sections each is about (cached)."""
+    key = "polarity_findings"
+    if key in layout.cache:
+        return layout.cache[key]
+    findings: list = []
     rev = reversing_sections(scn, layout)
     fixed = [s for s in layout.graph if s not in rev]
     col = signed_colouring(layout.graph, fixed)
@@ -415,7 +431,7 @@ def check_polarity(scn: Scenario, layout) -> list[Finding]:
                    if balances else "the longest of the loop; other loops of this part "
                    "need their own")
             crossed = [joints[k].name for k in keys if joints[k].sign < 0]
-            findings.append(Finding(
+            findings.append((Finding(
                 "error", "RF-POL-001", scn.where("track", "sections", best),
                 f"unbalanced loop {_arrow(nodes)}: it has {len(crossed)} crossed "
                 f"joint{'s' if len(crossed) != 1 else ''} ({', '.join(crossed)}), an odd "
@@ -423,7 +439,7 @@ def check_polarity(scn: Scenario, layout) -> list[Finding]:
                 f"reversing section",
                 f"make one section of this loop a reversing section: gap both rails at "
                 f"both its ends and feed it from a reversing controller, e.g. {best} "
-                f"({secs[best].length_m:g} m), {why}"))
+                f"({secs[best].length_m:g} m), {why}"), frozenset(comp)))
     groups: dict[str, list] = {}
     for s in layout.graph:
         if s in rev:
@@ -435,18 +451,19 @@ def check_polarity(scn: Scenario, layout) -> list[Finding]:
             continue
         nodes, keys = cyc
         crossed = [joints[k].name for k in keys if joints[k].sign < 0]
-        findings.append(Finding(
+        findings.append((Finding(
             "error", "RF-POL-003", scn.where("track", "sections", nodes[0]),
             f"unbalanced loop {_arrow(nodes)} (crossed: {', '.join(crossed)}) lies wholly "
             f"in the district of {dev}, which reverses it all at once: no setting of "
             f"{dev} gives it one polarity all round",
-            f"feed one section of this loop from a fixed-polarity district, gapped on both "
-            f"rails at both its ends"))
+            "feed one section of this loop from a fixed-polarity district, gapped on both "
+            "rails at both its ends"), frozenset(groups[dev])))
     for cyc in reversing_cycles(scn, layout):
         if cyc["covered_by"]:
-            findings.append(Finding(
+            findings.append((Finding(
                 "info", "RF-POL-002", "loop " + cyc["cycle"][0],
                 f"reversing loop {_arrow(cyc['cycle'])} is handled by reversing "
                 f"section{'s' if len(cyc['covered_by']) > 1 else ''} "
-                f"{', '.join(cyc['covered_by'])}"))
+                f"{', '.join(cyc['covered_by'])}"), None))
+    layout.cache[key] = findings
     return findings

@@ -34,53 +34,112 @@ def build_circuit(scn: Scenario, layout=None, grid_m: Optional[float] = None,
     scn
         The scenario.
     layout
-        Unused by the network itself (the circuit derives what it needs from
-        ``scn.track``); accepted for the agreed signature.
+        The scenario's layout (built when ``None``): the orientation of the
+        sections whose file gives no ``leads`` comes from its wiring sheet.
     grid_m
         Optional rail-node spacing (see :func:`sim.circuit.build.build_topology`);
         loads and shorts are exact at any position without it.
     """
-    circuit = Circuit(build_topology(scn, grid_m=grid_m, points_m=points_m))
+    circuit = Circuit(build_topology(scn, grid_m=grid_m, points_m=points_m, layout=layout))
     circuit.scn = scn
     return circuit
 
 
-#: Fault-map finding codes whose rule a static check reports too, and that check's
-#: code: `railfault faultmap` shows them, `railfault check` only once, as the latter.
-REPORTED_BY_STATIC_CHECKS = {"RF-FAULT-004": "RF-COORD-007"}  # full scale below the trip
+#: Finding codes the fault map repeats from the static rules (for ``railfault faultmap``,
+#: which runs no static check); ``railfault check`` reports them once, from the checks.
+STATIC_CODES = frozenset({"RF-COORD-007"})
 
 
-def check_findings(scn: Scenario, layout=None, step_m: float = 0.5):
+def _circuit_findings(scn: Scenario, layout, step_m: float):
+    """``(findings, fault map)`` of the coin test, trip windows and rail voltage."""
+    from sim.circuit.faultmap import fault_map
+    from sim.circuit.voltage import rail_voltage_findings
+    from sim.circuit.windows import window_findings
+
+    fm = fault_map(scn, layout, step_m=step_m)
+    findings = [f for f in fm.findings if f.code not in STATIC_CODES]
+    findings += window_findings(scn, fm, layout)
+    findings += rail_voltage_findings(scn, fm, layout)
+    return findings, fm
+
+
+def check_findings(scn: Scenario, layout=None, step_m: float = 0.5, with_map: bool = False):
     """Findings of the circuit checks and the fault-current rows for ``railfault check``.
 
     Runs the coin test everywhere (:func:`sim.circuit.faultmap.fault_map`), the
     trip windows (:func:`sim.circuit.windows.trip_windows`) and the rail voltage
     under load (:func:`sim.circuit.voltage.rail_voltage`).
 
+    Root causes (:mod:`sim.checks.rootcause`): a circuit finding that a copy of
+    the layout with one root-cause mistake mended (a dead short gapped, a clamped
+    sensor freed, a supply limit lifted) does not show follows only from that
+    mistake: it is kept, with ``because`` naming the root finding. A finding
+    that only all the mends together remove names the first root.
+
     Returns
     -------
-    (findings, rows)
+    (findings, rows), or (findings, rows, fault map) with ``with_map``
         A list of :class:`~sim.model.Finding` and the ``fault_current`` rows
         ``{section, at_m, current_a, device, trip_a, ok}``.
     """
-    from sim.circuit.faultmap import fault_map
-    from sim.circuit.voltage import rail_voltage_findings
-    from sim.circuit.windows import window_findings
+    import dataclasses
+
+    from sim.checks.rootcause import because_of, limit_mends, static_mends
     from sim.circuit.incremental import SingularUpdate
     from sim.errors import TopologyError
+    from sim.layout import build_layout
     from sim.model import Finding
 
+    if layout is None:
+        layout = build_layout(scn)
     try:
-        fm = fault_map(scn, layout, step_m=step_m)
+        findings, fm = _circuit_findings(scn, layout, step_m)
     except (TopologyError, KeyError, ValueError, SingularUpdate, KirchhoffError) as exc:
-        return [Finding("error", "RF-CKT-006", "track",
-                        f"the circuit of this layout cannot be built or solved: {exc}",
-                        "check the rail, wire and device values")], []
-    # a rule the static checks already report is not reported twice by `check`
-    findings = [f for f in fm.findings if f.code not in REPORTED_BY_STATIC_CHECKS]
-    findings += window_findings(scn, fm)
-    findings += rail_voltage_findings(scn, fm)
-    return findings, list(fm.rows)
+        err = [Finding("error", "RF-CKT-006", "track",
+                       f"the circuit of this layout cannot be built or solved: {exc}",
+                       "check the rail, wire and device values")]
+        return (err, [], None) if with_map else (err, [])
+    mends = static_mends(scn, layout) + limit_mends(scn, fm.devices)
+    passes = [(m.root, m.scn) for m in mends]
+    if len(mends) > 1:
+        merged = scn
+        for m in mends:
+            merged = _merge(merged, m.scn, scn)
+        passes.append((mends[0].root, merged))
+    because: dict = {}
+    for root, mended in passes:
+        mended_layout = build_layout(mended, check_routes=False)
+        mended_layout.cache.update({k: v for k, v in layout.cache.items()
+                                    if k in ("loco_intervals", "train_visits", "train_draw")})
+        try:
+            after, _ = _circuit_findings(mended, mended_layout, step_m)
+        except (TopologyError, SingularUpdate, KirchhoffError):
+            continue                     # the mended copy cannot be solved: no marks from it
+        left = {(f.code, f.where) for f in after}
+        for f in findings:
+            key = (f.code, f.where)
+            if f.code != "RF-FAULT-003" and key not in because and key not in left \
+                    and key != (root.code, root.where):
+                because[key] = because_of(root)
+    findings = [dataclasses.replace(f, because=because[(f.code, f.where)])
+                if (f.code, f.where) in because else f for f in findings]
+    return (findings, list(fm.rows), fm) if with_map else (findings, list(fm.rows))
+
+
+def _merge(acc: Scenario, mended: Scenario, orig: Scenario) -> Scenario:
+    """``acc`` with every part ``mended`` changed against ``orig``."""
+    import dataclasses
+
+    changes = {}
+    for fld in ("supplies", "boosters", "breakers", "reversers"):
+        a, m, o = getattr(acc, fld), getattr(mended, fld), getattr(orig, fld)
+        if m is not o:
+            changes[fld] = {k: (m[k] if m[k] is not o[k] else a[k]) for k in o}
+    if mended.track is not orig.track:
+        joints = tuple(mj if mj is not oj else aj for aj, mj, oj in
+                       zip(acc.track.joints, mended.track.joints, orig.track.joints))
+        changes["track"] = dataclasses.replace(acc.track, joints=joints)
+    return dataclasses.replace(acc, **changes)
 
 
 __all__ = ["Circuit", "KirchhoffError", "Solution", "build_circuit", "check_findings"]

@@ -23,7 +23,9 @@ breaker, reverser
     switched leads of ``r_on_ohm / 2`` each; a swap exchanges the leads.
 feeders
     one conductor from each device output terminal to each rail at ``at_m``
-    (``leads: swapped`` crosses them); switchable (a feeder can open).
+    (``leads: swapped`` crosses them; a section whose file gives no ``leads`` is
+    wired as the wiring sheet chooses, :func:`sim.checks.wiring.section_leads`);
+    switchable (a feeder can open).
 rails
     each rail of each section is a chain of nodes at its ends, feeders and
     optional grid points, joined by ``r/m * dx``.
@@ -240,12 +242,45 @@ def _positions(length_m: float, extra: list[float], grid_m: Optional[float],
     return np.array(out, dtype=float)
 
 
+def rail_positions(sec, r_per_m_ohm: float, grid_m: Optional[float] = None,
+                   extra_m=()) -> np.ndarray:
+    """Sorted distinct positions along a section: its ends, its feeders (one at
+    mid-length for a fed section without any), ``extra_m`` and a grid no more than
+    ``grid_m`` apart; positions closer than :data:`NODE_MERGE_M` (or than the rail
+    length of :data:`R_JOIN_OHM`, or a quarter of the grid) are one.
+
+    The rail nodes of the circuit, and the coin-test points of the fault map.
+    """
+    feeders_m = [f.at_m for f in sec.feeders]
+    if sec.feed is not None and not sec.feeders:
+        feeders_m = [sec.length_m / 2.0]
+    merge_m = max(NODE_MERGE_M, R_JOIN_OHM / r_per_m_ohm)
+    if grid_m:
+        merge_m = min(merge_m, grid_m / 4.0)
+    return _positions(sec.length_m, feeders_m + list(extra_m), grid_m, merge_m)
+
+
+def _leads(scn: Scenario, layout) -> dict:
+    """``{section: +1|-1}``: the leads as given, or as the wiring sheet chooses them."""
+    if all(sec.leads is not None for sec in scn.track.sections.values()):
+        return {s: sec.leads for s, sec in scn.track.sections.items()}
+    from sim.checks.wiring import section_leads
+    from sim.layout import build_layout
+
+    if layout is None:
+        layout = build_layout(scn, check_routes=False)
+    return {s: v for s, (v, _) in section_leads(scn, layout).items()}
+
+
 def build_topology(scn: Scenario, grid_m: Optional[float] = None,
-                   points_m: Optional[dict] = None) -> Topology:
+                   points_m: Optional[dict] = None, layout=None) -> Topology:
     """Turn a scenario into a :class:`Topology` (see the module docstring).
 
     Parameters
     ----------
+    layout
+        The scenario's :class:`~sim.layout.Layout` (built when ``None``), for the
+        orientation of the sections whose file gives no ``leads``.
     grid_m
         Optional spacing: rail nodes no more than ``grid_m`` apart (besides the
         ends and feeders, which are always nodes). ``None``: ends and feeders only.
@@ -255,6 +290,7 @@ def build_topology(scn: Scenario, grid_m: Optional[float] = None,
     nodes = _Nodes()
     findings: list[Finding] = []
     perm: list[tuple[int, int, float, str]] = []
+    leads = _leads(scn, layout)
 
     def wire(a: int, b: int, r_ohm: float, label: str) -> None:
         if r_ohm < R_JOIN_OHM:
@@ -339,14 +375,7 @@ def build_topology(scn: Scenario, grid_m: Optional[float] = None,
         raise TopologyError("the rail resistance must be positive")
     sections: dict[str, SectionNet] = {}
     for name, sec in scn.track.sections.items():
-        feeders_m = [f.at_m for f in sec.feeders]
-        if sec.feed is not None and not sec.feeders:
-            feeders_m = [sec.length_m / 2.0]
-        extra = feeders_m + list((points_m or {}).get(name, ()))
-        merge_m = max(NODE_MERGE_M, R_JOIN_OHM / r_m)
-        if grid_m:
-            merge_m = min(merge_m, grid_m / 4.0)
-        xs = _positions(sec.length_m, extra, grid_m, merge_m)
+        xs = rail_positions(sec, r_m, grid_m, (points_m or {}).get(name, ()))
         left = np.array([nodes.add(f"rail:{name}.left@{x:.6g}m") for x in xs], dtype=np.int64)
         right = np.array([nodes.add(f"rail:{name}.right@{x:.6g}m") for x in xs], dtype=np.int64)
         dev = sec.feed
@@ -375,7 +404,7 @@ def build_topology(scn: Scenario, grid_m: Optional[float] = None,
             r_c = 0.0 if f is None else wire_r_ohm(f.wire) / 2.0
             k, _ = snet.locate(at)
             rl, rr = int(snet.left[k]), int(snet.right[k])
-            if sec.leads < 0:
+            if leads.get(name, 1) < 0:
                 rl, rr = rr, rl
             feeders[(name, i)] = FeederNet(name, i, at, snet.device, ((o_l, rl), (o_r, rr)),
                                            1.0 / max(r_c, R_MIN_OHM))

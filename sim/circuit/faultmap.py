@@ -1,19 +1,40 @@
 """The coin test everywhere at once: prospective short-circuit current map.
 
-For every section, at rail nodes no more than ``step_m`` apart and at every
-feeder and end, a coin of ``r_coin_ohm`` (default 0.01 ohm, common practice
-for a coin or screwdriver blade across the rails) is laid across the rails.
-By Thevenin's theorem its current is
+For every section, at points no more than ``step_m`` apart and at every feeder
+and end, a coin of ``r_coin_ohm`` (default 0.01 ohm, common practice for a
+coin or screwdriver blade across the rails) is laid across the rails. By
+Thevenin's theorem its current is
 
     I = V_oc / (R_th + R_coin),   R_th = (e_L - e_R)^T G^-1 (e_L - e_R),
 
 with ``V_oc`` the open-circuit rail-to-rail voltage at the point and ``R_th``
 the driving-point resistance between the two rail nodes of the base network
-``G`` (every device closed, no train). All points come from one LU
-factorization of ``G``, with the right-hand sides ``e_L - e_R`` solved in
-batches; the same columns give, by superposition, the current the coin drives
-through every device on its path (``g (z_out - z_in)`` per lead), so a device
-in a mis-wired network is judged by the current it really carries.
+``G`` (every device closed, no train). By superposition the same solution
+gives the current the coin drives through every device on its path
+(``g (z_out - z_in)`` per lead), so a device in a mis-wired network is judged
+by the current it really carries.
+
+Method: sparse, and linear in the number of points
+--------------------------------------------------
+The circuit has rail nodes only at the section ends and feeders (the
+*junctions*); between two neighbouring junctions ``a`` and ``b`` (``dx``
+apart) each rail is a plain resistor chain. A coin at the fraction ``t`` of
+the span splits each rail into ``r t dx`` and ``r (1 - t) dx``; eliminating its
+two rail nodes (Kron reduction) gives the span back as one resistor and turns
+the unit coin injection into ``(1 - t) c_a + t c_b`` on the junctions, with
+``c_k = e_Lk - e_Rk`` the coin vector of junction ``k``. So, with
+``z_k = G^-1 c_k`` (one sparse solve per junction, :class:`~sim.circuit.incremental.BlockLU`
+part by part, batched) and ``Q_ij = c_i^T z_j``:
+
+    R_th(t) = 2 r dx t (1 - t) + (1 - t)^2 Q_aa + 2 t (1 - t) Q_ab + t^2 Q_bb
+    V_oc(t) = (1 - t) V_oc(a) + t V_oc(b)          (no current flows along the span)
+    I_lead(t) / I_coin = (1 - t) g (z_a[o] - z_a[i]) + t g (z_b[o] - z_b[i])
+
+Each point then costs a few floating-point operations, whatever the track's
+length or the step; the solves grow with the number of junctions (ends and
+feeders), not with the length. Memory is bounded by one batch of solutions of
+one connected part at a time. The points themselves are bounded too: at most
+:data:`MAX_POINTS` (the step is widened to keep to it, and RF-FAULT-005 says so).
 
 Whether a device trips: the current it can actually see is capped by its
 supply's current limit, and what it reads is clamped at its sensing full
@@ -27,8 +48,11 @@ RF-FAULT-002 (warning) the nearest device does not trip on a coin but one
                        upstream does: a short there takes down the larger district.
 RF-FAULT-003 (error)   a device's trip threshold is at or above its supply's
                        current limit: unreachable, it can never trip on a short.
-RF-FAULT-004 (error)   a device's sensing full scale is at or below its trip
-                       threshold: the clamped reading never trips.
+RF-FAULT-004           retired: a sensing full scale at or below a threshold is
+                       the one rule RF-COORD-007 (:func:`sim.checks.coordination.full_scale_findings`),
+                       which the fault map reports too. The number is not reused.
+RF-FAULT-005 (info)    the points were bounded: the step was widened to keep to
+                       :data:`MAX_POINTS` points.
 """
 from __future__ import annotations
 
@@ -38,19 +62,21 @@ from typing import Optional
 
 import numpy as np
 
-from sim.circuit.build import build_topology
+from sim.circuit.build import build_topology, rail_positions
+from sim.circuit.conductors import rail_r_per_m_ohm
+from sim.circuit.incremental import SingularUpdate, Woodbury
 from sim.circuit.network import Circuit
-from sim.circuit.incremental import Woodbury
 from sim.model import Finding, Scenario
 
 #: Coin resistance of the coin test (ohm): common practice.
 R_COIN_OHM = 0.01
 
-#: Right-hand sides solved together.
-BATCH = 256
+#: Right-hand sides solved together (SuperLU's multi-column solve slows down sharply
+#: beyond a few columns: 8 a batch was the fastest measured, tests/bench/bench_faultmap.py).
+BATCH = 8
 
-#: Largest boundary (nodes) for which the reduced inverse is formed densely.
-DENSE_MAX = 5000
+#: Most coin-test points of one map; the step is widened beyond it (RF-FAULT-005).
+MAX_POINTS = 50_000
 
 
 @dataclass
@@ -70,7 +96,11 @@ class FaultPoint:
 
 @dataclass
 class FaultMap:
-    """Rows of the ``fault_current`` list, findings and the points behind them."""
+    """Rows of the ``fault_current`` list, findings and the points behind them.
+
+    ``step_m`` is the step the points were laid at (wider than the one asked for,
+    ``step_asked_m``, when the points were bounded to ``max_points``).
+    """
 
     rows: list
     findings: list
@@ -78,6 +108,22 @@ class FaultMap:
     district_of: dict = field(default_factory=dict)
     step_m: float = 0.5
     r_coin_ohm: float = R_COIN_OHM
+    step_asked_m: float = 0.5
+    max_points: int = MAX_POINTS
+    devices: tuple = ()
+
+    @property
+    def bounded(self) -> bool:
+        """Whether the step was widened to keep to ``max_points``."""
+        return self.step_m > self.step_asked_m
+
+    def describe(self) -> str:
+        """One line for people: how many points, how far apart, and the bound."""
+        text = (f"{len(self.points)} coin-test points, at most {self.step_m:.3g} m apart, at "
+                f"every end and feeder; bounded to {self.max_points} points")
+        if self.bounded:
+            text += f" (a step of {self.step_asked_m:.3g} m would need more)"
+        return text
 
 
 def device_trip(scn: Scenario, name: str):
@@ -92,43 +138,11 @@ def supply_of(scn: Scenario, device: str) -> Optional[str]:
 
 
 def section_districts(scn: Scenario, layout=None) -> dict:
-    """The feeding device of every section (``None`` if unfed).
-
-    A section with ``feed`` ``None`` takes the device of the first fed section
-    it is bonded to (breadth first over joints with ``gaps: none``), the rule of
-    :mod:`sim.layout`; ``layout.district`` is used when a layout is given.
-    """
-    if layout is not None and hasattr(layout, "district"):
-        return {s: layout.district(s) for s in scn.track.sections}
-    adj: dict = {s: [] for s in scn.track.sections}
-    for j in scn.track.joints:
-        if j.gaps == "none":
-            a, b = j.ends[0].section, j.ends[1].section
-            if a in adj and b in adj:
-                adj[a].append(b)
-                adj[b].append(a)
-    out = {}
-    for s, sec in scn.track.sections.items():
-        if sec.feed is not None:
-            out[s] = sec.feed
-            continue
-        seen, queue, found = {s}, [s], None
-        while queue and found is None:
-            nxt = []
-            for u in queue:
-                for w in adj[u]:
-                    if w in seen:
-                        continue
-                    seen.add(w)
-                    if scn.track.sections[w].feed is not None:
-                        found = scn.track.sections[w].feed
-                        break
-                    nxt.append(w)
-                if found is not None:
-                    break
-            queue = nxt
-        out[s] = found
-    return out
+    """The feeding device of every section (``None`` if unfed), :meth:`sim.layout.Layout.district`."""
+    if layout is None:
+        from sim.layout import build_layout
+        layout = build_layout(scn, check_routes=False)
+    return {s: layout.district(s) for s in scn.track.sections}
 
 
 def chain_of(scn: Scenario, device: str) -> tuple:
@@ -137,10 +151,55 @@ def chain_of(scn: Scenario, device: str) -> tuple:
                  if scn.device_kind(d) in ("booster", "breaker", "reverser"))
 
 
+def limit_subjects(scn: Scenario, devices) -> list:
+    """``[(RF-FAULT-003 finding, device)]``: trip thresholds the supply cannot reach."""
+    out = []
+    for name in devices:
+        i_above, _ = device_trip(scn, name)
+        kind = scn.device_kind(name)
+        table = {"booster": "boosters", "breaker": "breakers", "reverser": "reversers"}[kind]
+        sup = supply_of(scn, name)
+        lim = scn.supplies[sup].i_limit_a if sup in scn.supplies else math.inf
+        if lim <= i_above:
+            out.append((Finding(
+                "error", "RF-FAULT-003", scn.where(table, name, "trip", "above"),
+                f"{kind} {name} trips above {i_above:g} A but its supply {sup} is limited at "
+                f"{lim:g} A: the trip threshold is unreachable and a short will not trip it",
+                f"set {name}'s trip below {lim:g} A or use a supply that can deliver more"),
+                name))
+    return out
+
+
+def coin_points(scn: Scenario, sections, step_m: float,
+                max_points: int = MAX_POINTS) -> tuple[dict, float]:
+    """``({section: positions}, step used)``: every end and feeder and a grid of
+    ``step_m``, the step widened (doubled until it fits) when the points would be
+    more than ``max_points``."""
+    r_m = rail_r_per_m_ohm(scn.track.rail)
+    secs = scn.track.sections
+    total_m = sum(secs[s].length_m for s in sections)
+    fixed = sum(len(secs[s].feeders) + 3 for s in sections)
+    step = float(step_m)
+    room = max_points - fixed
+    if room <= 0:
+        step = max(step, total_m + 1.0)          # ends and feeders only
+    elif total_m / step > room:
+        while total_m / step > room:
+            step *= 2.0
+    pts = {s: rail_positions(secs[s], r_m, step) for s in sections}
+    return pts, step
+
+
 def fault_map(scn: Scenario, layout=None, step_m: float = 0.5,
-              r_coin_ohm: float = R_COIN_OHM, circuit: Optional[Circuit] = None) -> FaultMap:
+              r_coin_ohm: float = R_COIN_OHM, circuit: Optional[Circuit] = None,
+              max_points: int = MAX_POINTS) -> FaultMap:
     """Prospective coin current at every point of every district (module docstring)."""
-    c = circuit or Circuit(build_topology(scn, grid_m=step_m))
+    from sim.checks.coordination import full_scale_findings
+
+    if layout is None:
+        from sim.layout import build_layout
+        layout = build_layout(scn, check_routes=False)
+    c = circuit or Circuit(build_topology(scn, layout=layout))
     topo = c.topo
     findings: list[Finding] = [f for f in topo.findings]
     wb = c._orig.wb or Woodbury(c._a0, c._inj, c.q_nodes)
@@ -151,40 +210,33 @@ def fault_map(scn: Scenario, layout=None, step_m: float = 0.5,
     devices = topo.devices
 
     # device-level findings ------------------------------------------------
-    for name in devices:
-        i_above, full_scale = device_trip(scn, name)
-        kind = scn.device_kind(name)
-        table = {"booster": "boosters", "breaker": "breakers", "reverser": "reversers"}[kind]
-        sup = supply_of(scn, name)
-        lim = scn.supplies[sup].i_limit_a if sup in scn.supplies else math.inf
-        if lim <= i_above:
-            findings.append(Finding(
-                "error", "RF-FAULT-003", scn.where(table, name, "trip", "above"),
-                f"{kind} {name} trips above {i_above:g} A but its supply {sup} is limited at "
-                f"{lim:g} A: the trip threshold is unreachable and a short will not trip it",
-                f"set {name}'s trip below {lim:g} A or use a supply that can deliver more"))
-        if full_scale <= i_above:
-            findings.append(Finding(
-                "error", "RF-FAULT-004", scn.where(table, name, "sense", "full_scale"),
-                f"{kind} {name} reads at most {full_scale:g} A (sensing full scale) but trips "
-                f"above {i_above:g} A: the clamped reading never trips",
-                f"raise {name}'s sensing full scale above {i_above:g} A"))
+    findings += [f for f, _ in limit_subjects(scn, devices)]
+    findings += full_scale_findings(scn)
 
     # points ------------------------------------------------------------------
     chains = {name: chain_of(scn, districts[name]) for name, snet in topo.sections.items()
               if districts.get(name) in devices and chain_of(scn, districts[name])}
-    thev = thevenin_points(c, x0, chains)
+    pts_m, step_used = coin_points(scn, list(chains), step_m, max_points)
+    if step_used > step_m:
+        n_pts = sum(len(v) for v in pts_m.values())
+        findings.append(Finding(
+            "info", "RF-FAULT-005", "track",
+            f"the coin test is bounded to {max_points} points: at a step of {step_m:g} m "
+            f"the track would need more, so it was laid {step_used:.3g} m apart "
+            f"({n_pts} points, every end and feeder among them)",
+            "ask for a coarser step, or check a part of the layout at a time"))
+    thev = thevenin_points(c, x0, chains, pts_m)
     points: list[FaultPoint] = []
     rows = []
+    limits = {d: (scn.supplies[supply_of(scn, d)].i_limit_a
+                  if supply_of(scn, d) in scn.supplies else math.inf) for d in devices}
     for section, at_m, v_oc, r_th, transfers in thev:
         chain = chains[section]
         i_s = v_oc / (r_th + r_coin_ohm)
         dev_i, eff_i, trips = [], [], []
         for d, t in zip(chain, transfers):
             i_dev = float(abs(i_s) * t)
-            sup = supply_of(scn, d)
-            lim = scn.supplies[sup].i_limit_a if sup in scn.supplies else math.inf
-            i_eff = min(i_dev, lim)
+            i_eff = min(i_dev, limits[d])
             i_above, full_scale = device_trip(scn, d)
             trip = min(i_eff, full_scale) > i_above
             dev_i.append(i_dev)
@@ -227,7 +279,8 @@ def fault_map(scn: Scenario, layout=None, step_m: float = 0.5,
                 f"({p.effective_i_a[0]:.2f} A against {device_trip(scn, p.chain[0])[0]:g} A) "
                 f"but trips {up}: the whole of {up}'s district goes dark",
                 f"lower {p.chain[0]}'s trip threshold or add feeders"))
-    return FaultMap(rows, findings, points, districts, step_m, r_coin_ohm)
+    return FaultMap(rows, findings, points, districts, step_used, r_coin_ohm, float(step_m),
+                    max_points, tuple(devices))
 
 
 def _lead_vectors(c: Circuit, chain_devices):
@@ -239,119 +292,109 @@ def _lead_vectors(c: Circuit, chain_devices):
     return out
 
 
-def thevenin_points(c: Circuit, x0: np.ndarray, chains: dict, direct: bool = False):
-    """Thevenin equivalent of every rail node pair of the sections in ``chains``.
+def _junction_terms(c: Circuit, chains: dict, leads: dict) -> dict:
+    """Per section: ``(Q_self, Q_next, T)`` at its junctions (module docstring).
 
-    Yields ``(section, at_m, v_oc_v, r_th_ohm, transfers)`` where ``transfers``
-    holds, per device of the section's chain, the larger lead current per
-    ampere of coin current.
-
-    Method: every interior rail node of a section (not an end) connects only to
-    its own section's rail and feeders, so the interior blocks ``G_II`` are
-    small and independent. The network is reduced onto the remaining
-    *boundary* nodes (section ends, device and supply nodes):
-    ``G_red = G_BB - G_BI G_II^-1 G_IB`` (Kron reduction), whose inverse ``W`` is
-    the full inverse on the boundary. For a coin at interior nodes with
-    ``h = G_II^-1 e`` and ``f = G_BI h``, ``R_th = e^T h + f^T W f``; a lead
-    functional ``w`` on boundary nodes transfers ``-f^T W w``. ``W`` is dense
-    when the boundary is at most :data:`DENSE_MAX` nodes; otherwise (or with
-    ``direct=True``) each point is solved on the full factorization in batches.
+    ``Q_self[k] = c_k^T z_k``, ``Q_next[k] = c_{k+1}^T z_k``, ``T[k, 2 i + l]`` the
+    signed current through lead ``l`` of the ``i``-th device of the section's
+    chain per ampere of coin current at junction ``k``. The coin vectors of all
+    junctions are solved part by part, :data:`BATCH` at a time, each batch's
+    Kirchhoff residual checked (at most ``1e-9`` of the injection).
     """
+    lu = c._orig.wb.lu
     topo = c.topo
-    leads = _lead_vectors(c, {d for ch in chains.values() for d in ch})
-    g_full = c._a0.tocsr()
-    n = g_full.shape[0]
-    interior = np.zeros(n, dtype=np.int64)
-    for name in chains:
-        s = topo.sections[name]
-        interior[s.left[1:-1]] += 1
-        interior[s.right[1:-1]] += 1
-    for name, s in topo.sections.items():
-        if name not in chains:
-            interior[s.left] += 2
-            interior[s.right] += 2
-    is_int = interior == 1
-    bnodes = np.nonzero(~is_int)[0]
-    if direct or len(bnodes) > DENSE_MAX:
-        yield from _thevenin_direct(c, x0, chains, leads)
-        return
-    bpos = -np.ones(n, dtype=np.int64)
-    bpos[bnodes] = np.arange(len(bnodes))
-    g_red = g_full[bnodes][:, bnodes].toarray()
-    local = {}
-    for name in chains:
-        s = topo.sections[name]
-        inodes = np.concatenate([s.left[1:-1], s.right[1:-1]])
-        if len(inodes) == 0:
-            continue
-        rows = g_full[inodes]
-        g_ii = rows[:, inodes].toarray()
-        nb = np.unique(rows.indices[~is_int[rows.indices]])
-        g_ib = rows[:, nb].toarray()
-        inv_ii = np.linalg.inv(g_ii)
-        sol = inv_ii @ g_ib
-        ix = bpos[nb]
-        g_red[np.ix_(ix, ix)] -= g_ib.T @ sol
-        local[name] = (inodes, inv_ii, g_ib, ix)
-    w = np.linalg.inv(0.5 * (g_red + g_red.T))
-
-    def wcol_lead(d):
-        return [g * (w[:, bpos[o]] - w[:, bpos[i]]) for o, i, g in leads[d]]
-
-    lead_cols = {d: wcol_lead(d) for d in leads}
+    out = {}
+    jobs: dict = {}                     # part -> [(section, k)]
     for name, chain in chains.items():
         s = topo.sections[name]
         m = len(s.xs_m)
-        lv = x0[s.left] - x0[s.right]
-        out_rth = np.zeros(m)
-        out_t = np.zeros((len(chain), m))
-        # end nodes (boundary)
-        for k in (0, m - 1):
-            bl, br = bpos[s.left[k]], bpos[s.right[k]]
-            out_rth[k] = w[bl, bl] + w[br, br] - 2.0 * w[bl, br]
-            for di, d in enumerate(chain):
-                out_t[di, k] = max(abs(col[bl] - col[br]) for col in lead_cols[d])
-        if name in local:
-            inodes, inv_ii, g_ib, ix = local[name]
-            p = m - 2
-            e = np.zeros((len(inodes), p))
-            e[np.arange(p), np.arange(p)] = 1.0
-            e[p + np.arange(p), np.arange(p)] = -1.0
-            h = inv_ii @ e
-            f = g_ib.T @ h
-            ws = w[np.ix_(ix, ix)]
-            out_rth[1:-1] = np.einsum("ij,ij->j", e, h) + np.einsum("ij,ij->j", f, ws @ f)
-            for di, d in enumerate(chain):
-                vals = [np.abs(f.T @ col[ix]) for col in lead_cols[d]]
-                out_t[di, 1:-1] = np.maximum.reduce(vals)
+        out[name] = (np.zeros(m), np.zeros(m), np.zeros((m, 2 * len(chain))))
         for k in range(m):
-            yield name, float(s.xs_m[k]), float(lv[k]), float(out_rth[k]), tuple(out_t[:, k])
+            part_l, part_r = lu.lab[s.left[k]], lu.lab[s.right[k]]
+            if part_l != part_r:
+                out[name][0][k] = math.inf      # the rails are in two separate parts
+                continue
+            jobs.setdefault(int(part_l), []).append((name, k))
+    for part, items in jobs.items():
+        ix, loc, sub = lu.idx[part], lu.loc, lu.subs[part]
+        in_part = np.zeros(lu.n, dtype=bool)
+        in_part[ix] = True
+        for start in range(0, len(items), BATCH):
+            chunk = items[start:start + BATCH]
+            rhs = np.zeros((len(ix), len(chunk)))
+            cols = np.arange(len(chunk))
+            li = np.array([loc[topo.sections[n].left[k]] for n, k in chunk])
+            ri = np.array([loc[topo.sections[n].right[k]] for n, k in chunk])
+            rhs[li, cols] += 1.0
+            rhs[ri, cols] -= 1.0
+            z = lu.lus[part].solve(rhs)
+            res = sub @ z - rhs
+            if res.size and float(np.max(np.abs(res))) > 1e-9:
+                raise SingularUpdate("a coin-test solve does not meet Kirchhoff's current law")
+            for col, (n, k) in enumerate(chunk):
+                s = topo.sections[n]
+                q_self, q_next, t = out[n]
+                q_self[k] = z[li[col], col] - z[ri[col], col]
+                if k + 1 < len(s.xs_m) and in_part[s.left[k + 1]] and in_part[s.right[k + 1]]:
+                    q_next[k] = (z[loc[s.left[k + 1]], col] - z[loc[s.right[k + 1]], col])
+                for di, d in enumerate(chains[n]):
+                    for li_, (o, i, g) in enumerate(leads[d]):
+                        if in_part[o] and in_part[i]:
+                            t[k, 2 * di + li_] = g * (z[loc[o], col] - z[loc[i], col])
+    return out
 
 
-def _thevenin_direct(c: Circuit, x0: np.ndarray, chains: dict, leads: dict):
-    """The same as :func:`thevenin_points`, one full solve per point (batched)."""
+def thevenin_points(c: Circuit, x0: np.ndarray, chains: dict, points_m: dict):
+    """Thevenin equivalent of a coin at every point of ``points_m`` (module docstring).
+
+    Parameters
+    ----------
+    c
+        The circuit (its base state: every device closed, no train).
+    x0
+        The base node voltages.
+    chains
+        ``{section: chain of devices}`` of the sections to test.
+    points_m
+        ``{section: positions}``, each sorted, within the section.
+
+    Yields
+    ------
+    (section, at_m, v_oc_v, r_th_ohm, transfers)
+        ``transfers`` holds, per device of the section's chain, the larger lead
+        current per ampere of coin current.
+    """
     topo = c.topo
-    wb = c._orig.wb
-    pts = []
-    for name in chains:
+    leads = _lead_vectors(c, {d for ch in chains.values() for d in ch})
+    terms = _junction_terms(c, chains, leads)
+    for name, chain in chains.items():
         s = topo.sections[name]
-        for k, x in enumerate(s.xs_m):
-            pts.append((name, float(x), int(s.left[k]), int(s.right[k])))
-    n = c.n_nodes
-    for start in range(0, len(pts), BATCH):
-        chunk = pts[start:start + BATCH]
-        cols = np.arange(len(chunk))
-        li = np.array([p[2] for p in chunk])
-        ri = np.array([p[3] for p in chunk])
-        rhs = np.zeros((n, len(chunk)))
-        rhs[li, cols] += 1.0
-        rhs[ri, cols] -= 1.0
-        z = wb.lu.solve(rhs)
-        r_th = z[li, cols] - z[ri, cols]
-        for col, (name, x, l_node, r_node) in enumerate(chunk):
-            t = tuple(max(abs(g * (z[o, col] - z[i, col])) for o, i, g in leads[d])
-                      for d in chains[name])
-            yield name, x, float(x0[l_node] - x0[r_node]), float(r_th[col]), t
+        xs = np.asarray(s.xs_m, dtype=float)
+        at = np.asarray(points_m.get(name, xs), dtype=float)
+        if len(at) == 0:
+            continue
+        q_self, q_next, t = terms[name]
+        v_j = x0[s.left] - x0[s.right]
+        if len(xs) == 1:
+            k = np.zeros(len(at), dtype=int)
+            frac = np.zeros(len(at))
+            dx = np.zeros(len(at))
+            k1 = k
+        else:
+            k = np.clip(np.searchsorted(xs, at, side="right") - 1, 0, len(xs) - 2)
+            dx = xs[k + 1] - xs[k]
+            frac = np.clip((at - xs[k]) / dx, 0.0, 1.0)
+            k1 = k + 1
+        a, b = 1.0 - frac, frac
+        r_th = (2.0 * s.r_per_m_ohm * dx * a * b + a * a * q_self[k]
+                + 2.0 * a * b * q_next[k] + b * b * q_self[k1])
+        r_th = np.where(np.isnan(r_th), np.inf, r_th)     # rails in two separate parts
+        v_oc = a * v_j[k] + b * v_j[k1]
+        lead_i = np.abs(a[:, None] * t[k] + b[:, None] * t[k1])
+        per_dev = lead_i.reshape(len(at), len(chain), 2).max(axis=2)
+        for p in range(len(at)):
+            yield (name, float(at[p]), float(v_oc[p]), float(r_th[p]),
+                   tuple(float(x) for x in per_dev[p]))
 
 
 def _span(plist) -> str:

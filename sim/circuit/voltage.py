@@ -1,9 +1,10 @@
 """Rail voltage under load, against NMRA S-9.1 (2020) table 3.
 
-For each feeding device's own district, all the trains that can be in it
-(route or start in one of its sections) are put, as constant-current loads of
-their locomotives' ``draw_a``, at the point of the district with the largest
-Thevenin resistance (the electrically farthest point):
+For each feeding device's own district, the locomotives that are in it
+together when they draw most, by the trains' schedules
+(:func:`sim.checks.draw.peak_draw`), are put, as constant-current loads of
+their ``draw_a``, at the point of the district with the largest Thevenin
+resistance (the electrically farthest point):
 ``V = V_oc - I_load R_th`` (Thevenin's theorem; the same equivalents as the
 fault map). A constant-current load is the pessimistic choice.
 
@@ -23,8 +24,8 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
+from sim.checks.draw import peak_draw
 from sim.circuit.faultmap import FaultMap
-from sim.circuit.windows import district_trains, train_load
 from sim.model import Finding, Scenario
 
 #: NMRA S-9.1 (2020) table 3: (min, nominal, max) peak track voltage, V.
@@ -66,17 +67,20 @@ class DistrictVoltage:
     at: tuple
 
 
-def rail_voltage(scn: Scenario, fm: FaultMap) -> list:
+def rail_voltage(scn: Scenario, fm: FaultMap, layout=None) -> list:
     """One :class:`DistrictVoltage` per feeding device (module docstring)."""
+    if layout is None:
+        from sim.layout import build_layout
+        layout = build_layout(scn)
     groups: dict = {}
     for p in fm.points:
         groups.setdefault(p.chain[0], []).append(p)
     out = []
     for dev, pts in groups.items():
         secs = tuple(sorted({p.section for p in pts}))
-        trains = district_trains(scn, secs)
+        pk = peak_draw(scn, layout, secs)
+        trains, steady = pk.trains, pk.i_a
         v_nl = max(p.v_oc_v for p in pts)
-        steady, _, _ = train_load(scn, trains, v_nl)
         worst = min(pts, key=lambda p: p.v_oc_v - steady * p.r_th_ohm)
         out.append(DistrictVoltage(dev, secs, trains, steady, v_nl,
                                    max(0.0, worst.v_oc_v - steady * worst.r_th_ohm),
@@ -84,12 +88,12 @@ def rail_voltage(scn: Scenario, fm: FaultMap) -> list:
     return out
 
 
-def rail_voltage_findings(scn: Scenario, fm: FaultMap) -> list:
+def rail_voltage_findings(scn: Scenario, fm: FaultMap, layout=None) -> list:
     """Findings RF-VOLT-001..004 (module docstring)."""
     group, assumed = scale_group(getattr(scn, "scale", None))
     v_min, v_nom, v_max = S91_TABLE3[group]
     findings = []
-    results = rail_voltage(scn, fm)
+    results = rail_voltage(scn, fm, layout)
     if assumed and results:
         findings.append(Finding(
             "info", "RF-VOLT-003", "scale",

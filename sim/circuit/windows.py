@@ -3,11 +3,12 @@
 For each booster, breaker and reverser, over every section downstream of it:
 
 bottom
-    the steady draw of every train that can be in the district at once (the
-    locomotives' ``draw_a`` of each train whose route or start visits the
-    district) plus the power-up inrush of their keep-alive capacitors, which
-    all charge together when the district is switched on after a trip
-    (:func:`sim.circuit.inrush.inrush`: peak ``V/R``, time constant ``RC``).
+    the most the trains draw in those sections at one instant by their
+    schedules (:func:`sim.checks.draw.peak_draw`) together with the power-up
+    inrush of the keep-alive capacitors of the locomotives there, which all
+    charge together when the district is switched on after a trip
+    (:func:`sim.circuit.inrush.inrush`: peak ``V/R``, time constant ``RC``):
+    the instant where draw plus inrush peak is largest.
 top
     the weakest prospective coin current through the device anywhere in the
     district (:mod:`sim.circuit.faultmap`), capped by the supply's limit.
@@ -21,8 +22,9 @@ Finding codes
 -------------
 RF-WIN-001 (error)   the trip threshold is at or above the weakest short in
                      the district: a short there does not trip it.
-RF-WIN-002 (error)   the steady draw of the district's trains reaches the
-                     threshold: it trips in normal running.
+RF-WIN-002           retired: the steady draw against the trip threshold is the
+                     one rule RF-COORD-008 (:mod:`sim.checks.draw`); the number is
+                     not reused.
 RF-WIN-003 (warning) the power-up inrush stays above the threshold for at
                      least the trip delay: it may trip on every restart.
 RF-WIN-004 (warning) the continuous rating (thermal rated current, else the
@@ -32,22 +34,24 @@ RF-WIN-005 (info)    the inrush crosses the threshold but for less than the trip
 """
 from __future__ import annotations
 
-import re
 from dataclasses import dataclass
 
+from sim.checks.draw import peak_draw
 from sim.circuit.faultmap import FaultMap, chain_of, supply_of
 from sim.circuit.inrush import inrush, time_above_s
-from sim.model import Finding, Reversal, Scenario
+from sim.model import Finding, Scenario
 
 #: Continuous rating as a share of the weakest short current (common practice).
 RATING_SHARE = 0.70
 
-_TIMES = re.compile(r"^\s*(.+?)\s+x\s+(\d+)\s*$")
-
 
 @dataclass(frozen=True)
 class TripWindow:
-    """The window of one device (currents in A, times in s)."""
+    """The window of one device (currents in A, times in s).
+
+    ``trains`` are the trains in the district at ``t_s``, the instant of the
+    largest draw plus inrush (``None`` when no train draws there).
+    """
 
     device: str
     kind: str
@@ -62,53 +66,29 @@ class TripWindow:
     t_after_s: float
     i_rating_a: float
     top_at: tuple
+    t_s: object = None
 
 
-def consist_vehicles(scn: Scenario, train) -> list:
-    """The vehicle records of a train's consist (``"name x N"`` expanded)."""
-    out = []
-    for item in train.consist:
-        name, count = item, 1
-        m = _TIMES.match(item)
-        if m and item not in scn.rolling_stock:
-            name, count = m.group(1), int(m.group(2))
-        v = scn.rolling_stock.get(name)
-        if v is not None:
-            out.extend([v] * count)
-    return out
+def power_up_load(scn: Scenario, layout, sections, v_track_v: float):
+    """``(steady_a, inrush_peak_a, tau_s, trains, t_s)`` at the instant the locomotives
+    in ``sections`` draw most with their keep-alive inrush (by the schedules)."""
+    stock = scn.rolling_stock
+
+    def rush(iv):
+        return inrush(stock[iv.name], v_track_v) if iv.name in stock else (0.0, 0.0)
+
+    pk = peak_draw(scn, layout, sections, weight=lambda iv: iv.draw_a + rush(iv)[0])
+    steady = sum(iv.draw_a for iv in pk.on)
+    peak = sum(rush(iv)[0] for iv in pk.on)
+    tau = max((rush(iv)[1] for iv in pk.on), default=0.0)
+    return steady, peak, tau, pk.trains, pk.t_s
 
 
-def train_sections(train) -> set:
-    """Every section a train's start and route visit."""
-    secs = {train.start.section}
-    for step in train.route:
-        if isinstance(step, str):
-            secs.add(step)
-        elif not isinstance(step, Reversal) and hasattr(step, "section"):
-            secs.add(step.section)
-    return secs
-
-
-def district_trains(scn: Scenario, sections) -> tuple:
-    """Trains whose start or route visits any of ``sections``."""
-    ss = set(sections)
-    return tuple(t for t, tr in scn.trains.items() if train_sections(tr) & ss)
-
-
-def train_load(scn: Scenario, trains, v_track_v: float):
-    """``(steady_a, inrush_peak_a, tau_s)`` of ``trains`` powered up together."""
-    steady = peak = tau = 0.0
-    for t in trains:
-        for v in consist_vehicles(scn, scn.trains[t]):
-            steady += v.draw_a
-            i_p, ta = inrush(v, v_track_v)
-            peak += i_p
-            tau = max(tau, ta)
-    return steady, peak, tau
-
-
-def trip_windows(scn: Scenario, fm: FaultMap) -> list:
+def trip_windows(scn: Scenario, fm: FaultMap, layout=None) -> list:
     """The :class:`TripWindow` of every device that has sections downstream."""
+    if layout is None:
+        from sim.layout import build_layout
+        layout = build_layout(scn)
     out = []
     for kind, table in (("booster", scn.boosters), ("breaker", scn.breakers),
                         ("reverser", scn.reversers)):
@@ -125,24 +105,24 @@ def trip_windows(scn: Scenario, fm: FaultMap) -> list:
             top, top_sec, top_at = min(pts)
             sup = supply_of(scn, name)
             v = scn.supplies[sup].v_emf_v if sup in scn.supplies else 0.0
-            trains = district_trains(scn, secs)
-            steady, peak, tau = train_load(scn, trains, v)
+            steady, peak, tau, trains, t_s = power_up_load(scn, layout, secs, v)
             thermal = getattr(dev, "thermal", None)
             rating = thermal.i_rated_a if thermal is not None else dev.trip.i_above_a
             out.append(TripWindow(name, kind, secs, trains, steady, peak, tau, steady + peak,
                                   top, dev.trip.i_above_a, dev.trip.t_after_s, rating,
-                                  (top_sec, top_at)))
+                                  (top_sec, top_at), t_s))
     return out
 
 
-def window_findings(scn: Scenario, fm: FaultMap) -> list:
-    """Findings RF-WIN-001..005 (module docstring)."""
+def window_findings(scn: Scenario, fm: FaultMap, layout=None) -> list:
+    """Findings RF-WIN-001, -003, -004, -005 (module docstring)."""
     findings = []
-    for w in trip_windows(scn, fm):
+    for w in trip_windows(scn, fm, layout):
         table = w.kind + "s"
         where = scn.where(table, w.device, "trip", "above")
+        when = (f" of {', '.join(w.trains)} at {w.t_s:.2f} s" if w.trains else "")
         window = (f"window {w.bottom_a:.2f} A (draw {w.i_steady_a:.2f} A + inrush "
-                  f"{w.i_inrush_peak_a:.2f} A) to {w.top_a:.2f} A (weakest short, "
+                  f"{w.i_inrush_peak_a:.2f} A{when}) to {w.top_a:.2f} A (weakest short, "
                   f"{w.top_at[0]} at {w.top_at[1]:.2f} m)")
         if w.i_trip_a >= w.top_a:
             findings.append(Finding(
@@ -150,13 +130,7 @@ def window_findings(scn: Scenario, fm: FaultMap) -> list:
                 f"{w.kind} {w.device} trips above {w.i_trip_a:g} A, at or above the weakest "
                 f"short in its district: {window}",
                 f"lower {w.device}'s trip below {w.top_a:.2f} A or strengthen the feeders"))
-        if w.i_trip_a <= w.i_steady_a:
-            findings.append(Finding(
-                "error", "RF-WIN-002", where,
-                f"{w.kind} {w.device} trips above {w.i_trip_a:g} A but its trains "
-                f"({', '.join(w.trains)}) draw {w.i_steady_a:.2f} A in normal running: {window}",
-                f"raise {w.device}'s trip or split the district"))
-        elif w.i_trip_a < w.bottom_a:
+        if w.i_steady_a < w.i_trip_a < w.bottom_a:
             t_over = time_above_s(w.i_steady_a, w.i_inrush_peak_a, w.tau_inrush_s, w.i_trip_a)
             if t_over >= w.t_after_s:
                 findings.append(Finding(

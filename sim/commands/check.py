@@ -10,6 +10,7 @@ from sim.textfmt import table as _table
 def check_result(path: str, step_m: float = 0.5) -> dict:
     """Load ``path`` and run every static and circuit check; the contract's JSON object."""
     from sim.checks import run_checks
+    from sim.checks.wiring import wiring_rows
     from sim.circuit import check_findings
     from sim.layout import build_layout
     from sim.scenario import load
@@ -17,34 +18,65 @@ def check_result(path: str, step_m: float = 0.5) -> dict:
     scn = load(path)
     layout = build_layout(scn)
     report = run_checks(scn, layout)
-    circuit_findings, rows = check_findings(scn, layout, step_m=step_m)
+    circuit_findings, rows, fm = check_findings(scn, layout, step_m=step_m, with_map=True)
     findings = list(report.findings) + list(circuit_findings)
     order = {"error": 0, "warning": 1, "info": 2}
     findings.sort(key=lambda f: (order.get(f.severity, 3), f.code, f.where))
     verdict = "fail" if any(f.severity == "error" for f in findings) else "pass"
-    return {
+    res = {
         "format": "railfault-check/1",
         "scenario": {"title": scn.title, "path": scn.path, "sha256": scn.sha256},
         "verdict": verdict,
         "findings": [f.as_dict() for f in findings],
         "reversing": [dict(r) for r in report.reversing],
         "fault_current": [dict(r) for r in rows],
+        "wiring": wiring_rows(scn, layout),
     }
+    if fm is not None:
+        res["coin_test"] = {"points": len(fm.points), "step_m": fm.step_m,
+                            "step_asked_m": fm.step_asked_m, "max_points": fm.max_points,
+                            "text": fm.describe()}
+    return res
+
+
+def _wiring_table(rows: list) -> str:
+    """The wiring sheet: per section and feeder, the device, where, and terminal -> rail."""
+    from sim.checks.wiring import TERMINALS
+
+    out = []
+    count: dict = {}
+    for r in rows:
+        n = count[r["section"]] = count.get(r["section"], 0) + 1
+        rails = ("left rail", "right rail") if r["leads"] == "normal" else \
+            ("right rail", "left rail")
+        out.append([r["section"], str(n), r["device"], f"{r['at_m']:.2f} m from a",
+                    f"{TERMINALS[0]} -> {rails[0]}", f"{TERMINALS[1]} -> {rails[1]}",
+                    r["leads"] + (" (chosen)" if r["chosen"] else " (as built)")])
+    return _table(["section", "feeder", "device", "at", "terminal", "terminal", "leads"], out)
 
 
 def render_check(res: dict) -> str:
     """Human-readable report of :func:`check_result`."""
     out = [f"railfault check: {res['scenario']['title']}  ({res['scenario']['path']})", ""]
-    counts = {s: sum(1 for f in res["findings"] if f["severity"] == s)
+    causes = [f for f in res["findings"] if not f.get("because")]
+    follow = [f for f in res["findings"] if f.get("because")]
+    counts = {s: sum(1 for f in causes if f["severity"] == s)
               for s in ("error", "warning", "info")}
-    if res["findings"]:
+    if causes:
         rows = [[f["severity"].upper(), f["code"], f["where"], f["message"], f.get("fix", "")]
-                for f in res["findings"]]
+                for f in causes]
         out += ["Findings", _table(["severity", "code", "where", "message", "smallest fix"], rows), ""]
+    if follow:
+        rows = [[f["severity"].upper(), f["code"], f["where"], f["because"]] for f in follow]
+        out += ["Follow only from a finding above (mend that one first; --json has their text)",
+                _table(["severity", "code", "where", "because of"], rows), ""]
     if res["reversing"]:
         rows = [[" -> ".join(r["cycle"]), ", ".join(r["covered_by"]) or "NOT COVERED"]
                 for r in res["reversing"]]
         out += ["Reversing cycles", _table(["cycle of sections", "reversing section(s)"], rows), ""]
+    if res.get("wiring"):
+        out += ["Wiring sheet (rails named as seen from the section's a end towards its b end)",
+                _wiring_table(res["wiring"]), ""]
     if res["fault_current"]:
         weakest: dict = {}
         def weakness(r: dict) -> tuple:  # a miss first, then the least current per trip level
@@ -56,9 +88,12 @@ def render_check(res: dict) -> str:
             if cur is None or weakness(r) < weakness(cur):
                 weakest[r["section"]] = r
         rows = [fault_row(r) for _, r in sorted(weakest.items())]
-        out += ["Weakest coin-test short per section",
+        out += ["Weakest coin-test short per section"
+                + (f": {res['coin_test']['text']}" if res.get("coin_test") else ""),
                 _table(FAULT_HEADERS, rows), ""]
-    out.append(f"{counts['error']} error(s), {counts['warning']} warning(s), {counts['info']} note(s).")
+    more = f" ({len(follow)} more follow from them)" if follow else ""
+    out.append(f"{counts['error']} error(s), {counts['warning']} warning(s), "
+               f"{counts['info']} note(s){more}.")
     out.append("Verdict: PASS - no errors found." if res["verdict"] == "pass"
                else "Verdict: FAIL - the layout has errors (see above).")
     out += ["", CAUTION]

@@ -20,12 +20,14 @@ def cmd_faultmap(args) -> int:
     verdict = "fail" if any(f["severity"] == "error" for f in findings) else "pass"
     if args.json:
         text = json.dumps({"format": "railfault-faultmap/1", "verdict": verdict,
-                           "step_m": args.step, "coin_ohm": args.coin,
+                           "step_m": fmap.step_m, "step_asked_m": args.step,
+                           "points": len(fmap.points), "max_points": fmap.max_points,
+                           "coin_ohm": args.coin,
                            "findings": findings, "fault_current": rows}, indent=2)
     else:
         table = _table(FAULT_HEADERS, [fault_row(r) for r in rows])
-        parts = [f"railfault faultmap: {scn.title}  (coin {args.coin:g} ohm, step {args.step:g} m)",
-                 "", table, ""]
+        parts = [f"railfault faultmap: {scn.title}  (coin {args.coin:g} ohm, step {fmap.step_m:g} m)",
+                 fmap.describe(), "", table, ""]
         if findings:
             parts += ["Findings", _table(["severity", "code", "where", "message"],
                                          [[f["severity"].upper(), f["code"], f["where"], f["message"]]
