@@ -54,8 +54,24 @@ def _source(scn: Scenario) -> dict:
     return {"title": scn.title, "path": scn.path, "sha256": scn.sha256}
 
 
+class _Judged:
+    """What every result has beside its ``verdict`` and ``findings``."""
+
+    verdict: str
+    findings: tuple
+
+    @property
+    def errors(self) -> list[Finding]:
+        """The findings that fail the verdict."""
+        return [f for f in self.findings if f.severity == "error"]
+
+    @property
+    def passed(self) -> bool:
+        return self.verdict == "pass"
+
+
 @dataclass(frozen=True)
-class CheckResult:
+class CheckResult(_Judged):
     """What ``railfault check`` finds: the static checks and the circuit checks.
 
     Attributes
@@ -83,14 +99,6 @@ class CheckResult:
     fault_current: tuple
     step_m: float = DEFAULT_STEP_M
 
-    @property
-    def errors(self) -> list[Finding]:
-        return [f for f in self.findings if f.severity == "error"]
-
-    @property
-    def passed(self) -> bool:
-        return self.verdict == "pass"
-
     def as_dict(self) -> dict:
         """The ``railfault-check/1`` JSON object (``railfault check --json``)."""
         return {
@@ -104,7 +112,7 @@ class CheckResult:
 
 
 @dataclass(frozen=True)
-class FaultMapResult:
+class FaultMapResult(_Judged):
     """What ``railfault faultmap`` finds: the coin test at every point of every district.
 
     Attributes
@@ -127,14 +135,6 @@ class FaultMapResult:
     fault_current: tuple
     step_m: float = DEFAULT_STEP_M
     coin_ohm: float = DEFAULT_COIN_OHM
-
-    @property
-    def errors(self) -> list[Finding]:
-        return [f for f in self.findings if f.severity == "error"]
-
-    @property
-    def passed(self) -> bool:
-        return self.verdict == "pass"
 
     def as_dict(self) -> dict:
         """The ``railfault-faultmap/1`` JSON object (``railfault faultmap --json``)."""

@@ -32,7 +32,7 @@ from sim.commands import COMMANDS
 from sim.commands.check import check_result, render_check  # noqa: F401  (re-exported)
 from sim.commands.common import (CAUTION, EXIT_FAIL, EXIT_INPUT, EXIT_INTERNAL,  # noqa: F401
                                  EXIT_PASS, print_problems, say)
-from sim.errors import RailfaultError, ScenarioError
+from sim.errors import OutputError, RailfaultError, ScenarioError
 from sim.textfmt import escape
 
 
@@ -69,7 +69,10 @@ def main(argv: Optional[Sequence[str]] = None) -> int:
     except ScenarioError as exc:
         print_problems(exc.problems)
         return EXIT_INPUT
-    except RailfaultError as exc:  # a report that cannot be written, a layout not buildable
+    except OutputError as exc:  # -o names a place the report cannot or must not go
+        say(str(exc))
+        return EXIT_INPUT
+    except RailfaultError as exc:  # a layout that cannot be built, ...
         say(f"the input could not be used: {exc}")
         return EXIT_INPUT
     except KeyboardInterrupt:

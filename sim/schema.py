@@ -233,12 +233,14 @@ class Number(Kind):
     @property
     def doc(self) -> str:  # type: ignore[override]
         parts = ["an integer" if self.integer else "a number"]
-        shown = (lambda x: f"{int(x):,}") if self.integer else (lambda x: f"{x:g}")
         if self.minimum is not None:
-            parts.append(f"{'>' if self.exclusive_min else '>='} {shown(self.minimum)}")
+            parts.append(f"{'>' if self.exclusive_min else '>='} {self._shown(self.minimum)}")
         if self.maximum is not None:
-            parts.append(f"{'<' if self.exclusive_max else '<='} {shown(self.maximum)}")
+            parts.append(f"{'<' if self.exclusive_max else '<='} {self._shown(self.maximum)}")
         return ", ".join(parts)
+
+    def _shown(self, x: float) -> str:
+        return f"{int(x):,}" if self.integer else f"{x:g}"
 
     def convert(self, cx, value, path):
         what = "an integer" if self.integer else "a number"
@@ -267,11 +269,11 @@ class Number(Kind):
         why = f" ({self.why})" if self.why else ""
         if lo is not None and (x < lo or (self.exclusive_min and x == lo)):
             cx.problem(path, f"must be {'greater than' if self.exclusive_min else 'at least'} "
-                             f"{lo:g}, got {describe(value)}{why}")
+                             f"{self._shown(lo)}, got {describe(value)}{why}")
             return INVALID
         if hi is not None and (x > hi or (self.exclusive_max and x == hi)):
             cx.problem(path, f"must be {'less than' if self.exclusive_max else 'at most'} "
-                             f"{hi:g}, got {describe(value)}{why}")
+                             f"{self._shown(hi)}, got {describe(value)}{why}")
             return INVALID
         if not self.integer and isinstance(x, int):
             if abs(x) > _FLOAT_INT_MAX:
