@@ -129,7 +129,7 @@ class Range:
     @property
     def span(self) -> str:
         """``"0 or 1 us to 1 h"``: how the format reference and messages show it."""
-        zero = f"0 or " if self.zero else ""
+        zero = "0 or " if self.zero else ""
         return f"{zero}{self.low} to {self.high}"
 
     def with_zero(self, zero: bool) -> "Range":
@@ -194,7 +194,7 @@ class Quantity(Kind):
         if x == 0:
             return ""
         if x < r.lo:
-            zero = f" (or 0 s for none)" if r.zero else ""
+            zero = " (or 0 s for none)" if r.zero else ""
             if r.resolution_bound:
                 return (f"{got} is shorter than the engine resolves: the smallest accepted "
                         f"interval is {r.low}{zero} (instants are kept on a 1 ns grid, and an "

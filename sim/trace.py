@@ -25,7 +25,7 @@ from types import MappingProxyType
 from typing import Iterable, Mapping, NamedTuple, Optional
 
 from sim.model import Finding
-from sim.verdict import decide  # noqa: F401  (the one verdict rule, re-exported)
+from sim.verdict import decide  # noqa: F401  (re-exported)
 
 #: Format tag of the result JSON.
 RESULT_FORMAT = "railfault-result/1"

@@ -320,6 +320,8 @@ class _Walker:
         if tag == _CORE + "bool":
             return self.loader.construct_yaml_bool(node)
         if tag == _CORE + "int":
+            # a core tag on text that is no number (`!!int abc`), or an integer of more
+            # digits than Python converts: mistakes of the file, located
             try:
                 return self.loader.construct_yaml_int(node)
             except (ValueError, TypeError):
