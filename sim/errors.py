@@ -2,7 +2,9 @@
 
 A :class:`ScenarioError` carries every :class:`Problem` found in one file, so
 that a file with ten mistakes reports all ten. The CLI prints them and exits
-with status 2; nothing else is written.
+with status 2; nothing else is written. Every :class:`RailfaultError` is
+something the user can act on (exit 2); any other exception is a defect of
+railfault (exit 3).
 """
 from __future__ import annotations
 
@@ -49,3 +51,9 @@ class ScenarioError(RailfaultError):
 
 class TopologyError(RailfaultError):
     """The layout cannot be built into a graph or circuit (a user-fixable cause)."""
+
+
+class OutputError(RailfaultError):
+    """A report cannot be written where the user asked (``-o``): a directory, a path
+    under a file, a place without write permission, or the scenario file itself.
+    Like a bad input file, the user can act on it (exit 2); nothing is written."""

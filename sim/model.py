@@ -363,6 +363,9 @@ class Train:
     route: tuple  # of str | Reversal
     speed_mps: float
     depart_s: float = 0.0
+    #: How many times the route after its first section is run; ``route`` holds
+    #: the steps laid out already (``laps`` is what the file said).
+    laps: int = 1
 
 
 # ------------------------------------------------------------ faults, actions
@@ -416,6 +419,9 @@ class Scenario:
     path: str = "<memory>"
     sha256: str = ""
     locations: Mapping[tuple, tuple[int, int]] = field(default_factory=lambda: EMPTY)
+    #: The model scale named by the file (``"HO"``, ``"N"``, ...; ``sim.schema.SCALES``),
+    #: ``None`` when it gives none.
+    scale: Optional[str] = None
 
     # ------------------------------------------------------------- queries
     def device_kind(self, name: str) -> Optional[str]:

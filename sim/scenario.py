@@ -13,7 +13,9 @@ reports ten):
    cycle, positions within their section or vehicle, ``vary`` key paths;
 5. the frozen :class:`sim.model.Scenario`.
 
-Only :class:`sim.errors.ScenarioError` leaves :func:`load` and :func:`loads`.
+A mistake of the file leaves :func:`load` and :func:`loads` as a
+:class:`sim.errors.ScenarioError` (every problem located); any other exception is a
+defect of railfault and is not dressed as one (the CLI exits 3 for it).
 """
 from __future__ import annotations
 
@@ -26,6 +28,7 @@ from typing import Any, Optional
 from sim import model as M
 from sim import schema as S
 from sim.errors import Problem, ScenarioError
+from sim.units import clip
 from sim.yamlnodes import MAX_FILE_BYTES, Document, decode, dotted, parse_text, read_bytes
 
 __all__ = ["load", "loads", "FORMAT", "DEFAULT_SHORT_R_OHM"]
@@ -40,8 +43,8 @@ _DEVICE_KINDS = ("booster", "breaker", "reverser")
 _PLURAL = {"supply": "supplies", "booster": "boosters", "breaker": "breakers",
            "reverser": "reversers", "section": "sections", "vehicle": "vehicles",
            "train": "trains"}
-_CONSIST_RE = re.compile(r"^\s*(?P<name>[A-Za-z0-9_][A-Za-z0-9_-]*)(?:\s+x\s+(?P<n>\d+))?\s*$")
-_SEGMENT_RE = re.compile(r"([^.\[\]]+)|\[(\d+)\]")
+_CONSIST_RE = re.compile(r"\s*(?P<name>[A-Za-z0-9_][A-Za-z0-9_-]*)(?:\s+x\s+(?P<n>[0-9]+))?\s*")
+_SEGMENT_RE = re.compile(r"([^.\[\]]+)|\[([0-9]{1,9})\]")
 
 
 # ------------------------------------------------------------------ public API
@@ -76,8 +79,9 @@ def load(path: str | os.PathLike) -> M.Scenario:
         return _load_text(doc, text, hashlib.sha256(raw).hexdigest())
     except ScenarioError:
         raise
-    except Exception as exc:  # never let anything else escape
-        raise _internal(doc, exc) from exc
+    except Exception as exc:  # a defect of ours: it stays one (exit 3), with where it was
+        _note(doc, exc)
+        raise
 
 
 def loads(text: str, path: str = "<string>") -> M.Scenario:
@@ -105,18 +109,23 @@ def loads(text: str, path: str = "<string>") -> M.Scenario:
         return _load_text(doc, text, hashlib.sha256(raw).hexdigest())
     except ScenarioError:
         raise
-    except Exception as exc:
-        raise _internal(doc, exc) from exc
+    except Exception as exc:  # a defect of ours: it stays one (exit 3), with where it was
+        _note(doc, exc)
+        raise
 
 
 # -------------------------------------------------------------------- helpers
-def _internal(doc: Document, exc: BaseException) -> ScenarioError:
+def _note(doc: Document, exc: BaseException) -> None:
+    """Add where the loader was to an unexpected exception (for the defect report).
+
+    The exception is not turned into a :class:`ScenarioError`: a crash of the loader
+    is a defect of railfault, not a mistake of the file, and the CLI says so (exit 3).
+    """
     where = doc.current
     loc = doc.locate(where) if where else None
-    return ScenarioError(list(doc.problems) + [Problem(
-        doc.file, dotted(where), f"internal error while reading the file "
-                                 f"({type(exc).__name__}: {exc}); please report it",
-        loc[0] if loc else None, loc[1] if loc else None)])
+    at = f" at {dotted(where)}" if where else ""
+    line = f" (line {loc[0]})" if loc else ""
+    exc.add_note(f"railfault: while loading {doc.file}{at}{line}")
 
 
 def _ok(*values: Any) -> bool:
@@ -265,6 +274,12 @@ class _Checker:
     # sections -----------------------------------------------------------
     def section_rules(self) -> None:
         base = ("track", "sections")
+        lengths = [sec.get("length") for sec in self.sections().values() if isinstance(sec, dict)]
+        total_m = sum(x for x in lengths if _ok(x))
+        bound_m, why = S.COUNT_REASONS["track length of all sections"]
+        if total_m > bound_m:
+            self.problem(base, f"the sections add up to {total_m / 1e3:g} km of track: at most "
+                               f"{bound_m / 1e3:g} km ({why})")
         for name, sec in self.sections().items():
             if not isinstance(sec, dict):
                 continue
@@ -362,23 +377,63 @@ class _Checker:
 
     def train_rules(self) -> None:
         secs = self.sections()
+        in_file = steps_in_file = 0
         for name, t in self.table("trains").items():
             if not isinstance(t, dict):
                 continue
             path = ("trains", name)
-            consist = t.get("consist")
-            if isinstance(consist, list):
-                for i, item in enumerate(consist):
-                    m = _CONSIST_RE.match(item) if isinstance(item, str) else None
-                    if m is None:
-                        continue
-                    if m.group("n") is not None and int(m.group("n")) < 1:
-                        self.problem(path + ("consist", i), f"'{item}': the count must be at "
-                                                            f"least 1")
-                    self.resolve(path + ("consist", i), m.group("name"), ("vehicle",))
+            in_file += self.consist_rules(path, t.get("consist"))
+            steps_in_file += self.lap_rules(path, t.get("route"), t.get("laps"))
             start = t.get("start")
             if isinstance(start, dict):
                 self.within_section(path + ("start", "at"), secs, start)
+        self.at_most(("trains",), in_file, "vehicles in all trains")
+        self.at_most(("trains",), steps_in_file, "route steps in all trains")
+
+    def at_most(self, path: tuple, n: int, what: str) -> bool:
+        """A problem when a count is above its bound (:data:`sim.schema.COUNT_REASONS`)."""
+        bound, why = S.COUNT_REASONS[what]
+        if n > bound:
+            self.problem(path, f"{n} {what}: at most {bound} ({why})")
+            return False
+        return True
+
+    def consist_rules(self, path: tuple, consist: Any) -> int:
+        """Check a consist's entries and count; returns its number of vehicles."""
+        if not isinstance(consist, list):
+            return 0
+        total = 0
+        bound, why = S.COUNT_REASONS["vehicles per train"]
+        for i, item in enumerate(consist):
+            m = _CONSIST_RE.fullmatch(item) if isinstance(item, str) else None
+            if m is None:
+                continue
+            text = m.group("n") or "1"
+            n = int(text) if len(text) <= 12 else 10 ** 12  # no long int parsing
+            if n < 1:
+                self.problem(path + ("consist", i), f"'{item}': the count must be at least 1")
+            elif n > bound:
+                self.problem(path + ("consist", i), f"'{clip(item)}': at most {bound} "
+                                                    f"vehicles in a train ({why})")
+                return bound + 1
+            total += n
+            self.resolve(path + ("consist", i), m.group("name"), ("vehicle",))
+        self.at_most(path + ("consist",), total, "vehicles per train")
+        return total
+
+    def lap_rules(self, path: tuple, route: Any, laps: Any) -> int:
+        """Check ``laps`` against the route; returns the route steps once laid out."""
+        if not isinstance(route, list) or not _ok(laps):
+            return 0
+        if laps > 1 and len(route) < 2:
+            self.problem(path + ("laps",), f"laps: {laps} needs a route of the start section "
+                                           f"and at least one more step (a lap is the route "
+                                           f"after its first section)")
+            return 0
+        steps = 1 + (len(route) - 1) * laps
+        where = path + (("laps",) if laps > 1 else ("route",))
+        self.at_most(where, steps, "route steps per train (laps laid out)")
+        return steps
 
     def within_section(self, path: tuple, secs: dict, place: dict) -> None:
         """A place ``{section, at}`` must lie within its section's length."""
@@ -474,9 +529,10 @@ class _Checker:
 
     def _sampler(self, path: tuple, target: tuple, kind: S.Kind, spec: Any):
         unit = kind.dim.si if isinstance(kind, S.Quantity) else ""
-        free = S.Quantity(kind.dim, None) if isinstance(kind, S.Quantity) else S.Number()
-        spread = S.Quantity(kind.dim, "positive") if isinstance(kind, S.Quantity) else \
-            S.Number(minimum=0.0, exclusive_min=True)
+        # a normal's mean lies in the key's range, its spread in the same range's bounds
+        free = kind
+        spread = S.Quantity(kind.dim, kind.range.with_zero(False)) \
+            if isinstance(kind, S.Quantity) else S.Number(minimum=0.0, exclusive_min=True)
 
         def out(sampler: str, values) -> dict:
             return MappingProxyType({"path": target, "sampler": sampler,
@@ -520,6 +576,21 @@ class _Checker:
             vals = [free.convert(self.cx, args[0], sub + (0,)),
                     spread.convert(self.cx, args[1], sub + (1,))]
         return out(name, vals) if len(self.doc.problems) == n_before else None
+
+
+def lay_out_laps(route: tuple, laps: int) -> tuple:
+    """A route run ``laps`` times: its first step (the start section), then the steps
+    after it, ``laps`` times over.
+
+    >>> lay_out_laps(("a", "b", "c", "a"), 2)
+    ('a', 'b', 'c', 'a', 'b', 'c', 'a')
+    """
+    return route[:1] + route[1:] * laps
+
+
+def lap_step(i: int, n: int) -> int:
+    """The step of an ``n``-step written route that step ``i`` of its laid-out laps repeats."""
+    return i if i < n else (i - 1) % (n - 1) + 1
 
 
 def _either_option(kind: S.Either, datum: Any) -> S.Kind:
@@ -682,15 +753,28 @@ class _Builder:
         for name, t in self.c["trains"].items():
             consist: list[str] = []
             for item in t["consist"]:
-                m = _CONSIST_RE.match(item)
+                m = _CONSIST_RE.fullmatch(item)
                 consist.extend([m.group("name")] * int(m.group("n") or 1))
-            route = tuple(step if isinstance(step, str) else
-                          M.Reversal(t_wait_s=step["reverse_after"]) for step in t["route"])
+            written = tuple(step if isinstance(step, str) else
+                            M.Reversal(t_wait_s=step["reverse_after"]) for step in t["route"])
+            laps = int(t["laps"])
             st = t["start"]
             out[name] = M.Train(name=name, consist=tuple(consist),
                                 start=M.Start(st["section"], st["at"], st["heading"]),
-                                route=route, speed_mps=t["speed"], depart_s=t["depart"])
+                                route=lay_out_laps(written, laps), speed_mps=t["speed"],
+                                depart_s=t["depart"], laps=laps)
         return out
+
+    def locations(self) -> dict:
+        """Every key path's location; a laid-out lap's steps at the steps they repeat."""
+        locs = dict(self.doc.locations)
+        for name, t in self.c["trains"].items():
+            n, laps = len(t["route"]), int(t["laps"])
+            for i in range(n, 1 + (n - 1) * laps):
+                written = locs.get(("trains", name, "route", lap_step(i, n)))
+                if written is not None:
+                    locs[("trains", name, "route", i)] = written
+        return locs
 
     def faults(self) -> tuple:
         out = []
@@ -725,5 +809,5 @@ class _Builder:
             samples=int(c["samples"]),
             t_margin_required_s=c["require"]["margin"],
             path=self.doc.file, sha256=sha,
-            locations=MappingProxyType(dict(self.doc.locations)))
+            locations=MappingProxyType(self.locations()), scale=c["scale"])
 

@@ -26,6 +26,7 @@ from types import MappingProxyType
 from typing import Iterable, Mapping, NamedTuple, Optional
 
 from sim.model import Finding
+from sim.verdict import decide  # noqa: F401  (re-exported)
 
 #: Format tag of the result JSON.
 RESULT_FORMAT = "railfault-result/1"
@@ -382,8 +383,3 @@ def verdict_findings(episodes: Iterable[Episode], t_margin_required_s: float) ->
                                    f"timing margin {ep.margin_s * 1e3:+.3f} ms at {at} is below "
                                    f"the required {t_margin_required_s * 1e3:.3f} ms"))
     return out
-
-
-def decide(findings: Iterable[Finding]) -> str:
-    """``"fail"`` when any finding is an error, else ``"pass"``."""
-    return "fail" if any(f.severity == "error" for f in findings) else "pass"

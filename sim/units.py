@@ -25,7 +25,7 @@ from __future__ import annotations
 import math
 import re
 from dataclasses import dataclass
-from decimal import Decimal, InvalidOperation
+from decimal import Context, Decimal, InvalidOperation
 from functools import lru_cache
 from typing import Optional
 
@@ -33,7 +33,7 @@ __all__ = [
     "Dimension", "QuantityError", "DIMENSIONS", "TIME", "CURRENT", "VOLTAGE", "RESISTANCE",
     "LENGTH", "AREA", "SPEED", "RESISTANCE_PER_LENGTH", "CAPACITANCE", "DIMENSIONLESS",
     "registry", "describe", "parse_quantity", "parse_awg", "is_awg", "AWG_MIN", "AWG_MAX",
-    "MAX_QUANTITY_CHARS", "dimension_of",
+    "MAX_QUANTITY_CHARS", "dimension_of", "clip", "MAX_SHOWN_CHARS",
 ]
 
 #: Longest quantity text accepted (characters).
@@ -99,12 +99,22 @@ DIMENSIONLESS = Dimension("a number", "", (), ())
 DIMENSIONS: tuple[Dimension, ...] = (TIME, CURRENT, VOLTAGE, RESISTANCE, LENGTH, AREA, SPEED,
                                      RESISTANCE_PER_LENGTH, CAPACITANCE)
 
-_NUMBER = r"[+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?"
-_QUANTITY_RE = re.compile(rf"^\s*(?P<num>{_NUMBER})\s*(?P<unit>[^\s\d+.-].*?)?\s*$", re.S)
-_UNIT_CHARS_RE = re.compile(r"^[A-Za-zµμΩ°_][A-Za-zµμΩ°_0-9 */^()·.-]*$")
+#: Decimal arithmetic for the one product number x unit factor: no trap, so an
+#: exponent too large or too small for any float gives an infinity or a zero
+#: (handled by ``_to_float``), never an exception.
+_EXACT = Context(prec=28, traps=[])
+
+_NUMBER = r"[+-]?(?:[0-9]+(?:\.[0-9]*)?|\.[0-9]+)(?:[eE][+-]?[0-9]+)?"
+_QUANTITY_RE = re.compile(rf"\s*(?P<num>{_NUMBER})\s*(?P<unit>[^\s0-9+.-].*?)?\s*", re.S)
+#: A unit expression: unit names, each with an optional small power (``^2``, ``**-1``,
+#: or ``2``/``3`` written directly after the name), joined by ``*``, ``/`` or ``·``.
+#: Nothing else reaches the units library, whose parser is for trusted text.
+_UNIT_NAME = r"[A-Za-zµμΩ°_]+"
+_UNIT_POWER = r"(?:(?:\^|\*\*)-?[1-9]|[23])?"
+_UNIT_CHARS_RE = re.compile(rf"^{_UNIT_NAME}{_UNIT_POWER}(?:\s*[*/·]\s*{_UNIT_NAME}{_UNIT_POWER})*\Z")
 #: ``mm2`` -> ``mm**2``: a unit name directly followed by the power 2 or 3.
 _POWER_RE = re.compile(r"(?<=[A-Za-zµμΩ])([23])(?![\d.])")
-_AWG_RE = re.compile(r"^\s*(?P<g>\d{1,4}|[1-4]/0)\s*AWG\s*$", re.I)
+_AWG_RE = re.compile(r"\s*(?P<g>[0-9]{1,4}|[1-4]/0)\s*AWG\s*", re.I)
 
 
 @lru_cache(maxsize=1)
@@ -125,6 +135,18 @@ def _unit_info(unit_text: str) -> tuple[Decimal, tuple[tuple[str, int], ...], st
     return Decimal(repr(float(base.magnitude))), dims, f"{units:~}"
 
 
+@lru_cache(maxsize=1)
+def _unit_errors() -> type:
+    """The units library's own error for a unit it cannot read (the base of all its errors).
+
+    Only expressions of the narrow grammar of ``_UNIT_CHARS_RE`` reach the library;
+    any other exception it raises on them is a defect to see, not bad input.
+    """
+    import pint
+
+    return pint.errors.PintError
+
+
 def _normalise_unit(unit_text: str) -> str:
     text = unit_text.strip().replace("·", "*").replace("^", "**")
     return _POWER_RE.sub(r"**\1", text)
@@ -138,16 +160,33 @@ def dimension_of(exponents: tuple[tuple[str, int], ...]) -> Optional[Dimension]:
     return DIMENSIONLESS if not exponents else None
 
 
+#: Longest piece of a file's text that a message repeats (longer text is cut, with
+#: its length said): a message must stay a line, whatever the file holds.
+MAX_SHOWN_CHARS = 60
+
+
+def clip(text: str, limit: int = MAX_SHOWN_CHARS) -> str:
+    """``text``, or its first ``limit`` characters and how long it was."""
+    if len(text) <= limit:
+        return text
+    return f"{text[:limit]}... ({len(text)} characters)"
+
+
 def describe(value: object) -> str:
-    """How a message shows a value the file gave (``"2 A"``, ``a mapping``, ``true``)."""
+    """How a message shows a value the file gave (``"2 A"``, ``a mapping``, ``true``).
+
+    Text is quoted and cut to :data:`MAX_SHOWN_CHARS` characters (:func:`clip`);
+    control characters are left to the printer's escaping (:mod:`sim.textfmt`).
+    """
     if isinstance(value, str):
-        return f'"{value}"'
+        return f'"{clip(value)}"'
     if value is None:
         return "nothing (null)"
     if isinstance(value, bool):
         return "true" if value else "false"
     if isinstance(value, (int, float)):
-        return repr(value)
+        return clip(repr(value)) if not isinstance(value, int) or value.bit_length() < 8000 \
+            else f"an integer of {value.bit_length()} bits"
     if isinstance(value, dict):
         return "a mapping"
     if isinstance(value, list):
@@ -182,8 +221,12 @@ def parse_quantity(value: object, dim: Dimension) -> float:
         raise QuantityError(f"expected {dim.label}, got {got}")
     if isinstance(value, (int, float)):
         if dim is DIMENSIONLESS:
-            return _finite(float(value), dim, got)
-        hint = f'"{value} {dim.si}"'
+            try:
+                return _finite(float(value), dim, got)
+            except OverflowError:  # an integer beyond any float
+                raise QuantityError(f"expected {dim.label}, got {got}: not a finite value") \
+                    from None
+        hint = f'"{clip(str(value), 12)} {dim.si}"'
         raise QuantityError(f"expected {dim.label}, got {got}: write the unit, e.g. {hint}")
     if not isinstance(value, str):
         raise QuantityError(f"expected {dim.label}, got {got}")
@@ -191,9 +234,9 @@ def parse_quantity(value: object, dim: Dimension) -> float:
     if len(text) > MAX_QUANTITY_CHARS:
         raise QuantityError(f"expected {dim.label}, got a text of {len(text)} characters "
                             f"(at most {MAX_QUANTITY_CHARS})")
-    m = _QUANTITY_RE.match(text)
+    m = _QUANTITY_RE.fullmatch(text)
     if not m:
-        if _AWG_RE.match(text):
+        if _AWG_RE.fullmatch(text):
             raise QuantityError(f"expected {dim.label}, got {got} (a wire gauge)")
         raise QuantityError(f"expected {dim.label}, got {got}: not a number with a unit")
     try:
@@ -203,24 +246,37 @@ def parse_quantity(value: object, dim: Dimension) -> float:
     unit_text = m.group("unit")
     if not unit_text:
         if dim is DIMENSIONLESS:
-            return _finite(float(number), dim, got)
+            return _finite(_to_float(number, number), dim, got)
         raise QuantityError(f"expected {dim.label}, got {got}: the unit is missing, "
                             f'e.g. "{m.group("num")} {dim.si}"')
-    if _AWG_RE.match(text):
+    if _AWG_RE.fullmatch(text):
         raise QuantityError(f"expected {dim.label}, got {got} (a wire gauge)")
-    if not _UNIT_CHARS_RE.match(unit_text):
+    if not _UNIT_CHARS_RE.fullmatch(unit_text):
         raise QuantityError(f"expected {dim.label}, got {got}: cannot read the unit "
                             f'"{unit_text}"')
     try:
         factor, exponents, _name = _unit_info(_normalise_unit(unit_text))
-    except Exception:  # pint raises several types for an unreadable unit
+    except _unit_errors():  # an unknown name, or names that do not combine
         raise QuantityError(f"expected {dim.label}, got {got}: unknown unit "
                             f'"{unit_text}"') from None
     if exponents != dim.exponents:
         found = dimension_of(exponents)
         what = f" ({found.name})" if found is not None and found is not DIMENSIONLESS else ""
         raise QuantityError(f"expected {dim.label}, got {got}{what}")
-    return _finite(float(number * factor), dim, got)
+    return _finite(_to_float(_EXACT.multiply(number, factor), number), dim, got)
+
+
+def _to_float(x: Decimal, written: Decimal) -> float:
+    """``x`` as a float; a value written non-zero never becomes 0.
+
+    A value too small for a float (``1e-400 s``) becomes the smallest positive
+    float of its sign, so that range checks refuse it as too small instead of
+    reading it as zero; one too large becomes an infinity (refused as not finite).
+    """
+    f = float(x)
+    if f == 0.0 and written != 0:
+        return math.copysign(math.ulp(0.0), float(Decimal(1).copy_sign(written)))
+    return f
 
 
 def _finite(x: float, dim: Dimension, got: str) -> float:
@@ -231,7 +287,7 @@ def _finite(x: float, dim: Dimension, got: str) -> float:
 
 def is_awg(value: object) -> bool:
     """Whether ``value`` is written as a wire gauge (``"14 AWG"``, ``"1/0 AWG"``)."""
-    return isinstance(value, str) and _AWG_RE.match(value) is not None
+    return isinstance(value, str) and _AWG_RE.fullmatch(value) is not None
 
 
 def parse_awg(value: object) -> float:
@@ -247,7 +303,7 @@ def parse_awg(value: object) -> float:
         For anything else, or a gauge outside 0000 .. 40.
     """
     got = describe(value)
-    m = _AWG_RE.match(value) if isinstance(value, str) else None
+    m = _AWG_RE.fullmatch(value) if isinstance(value, str) else None
     if m is None:
         raise QuantityError(f'expected a wire gauge (e.g. "14 AWG"), got {got}')
     g = m.group("g")

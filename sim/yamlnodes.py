@@ -13,6 +13,7 @@ entry is located at its key, a list item at the item (lines and columns 1-based)
 from __future__ import annotations
 
 import os
+import stat
 from dataclasses import dataclass, field
 from typing import Any, Optional
 
@@ -20,7 +21,7 @@ import yaml
 
 from sim.errors import Problem
 
-__all__ = ["MAX_FILE_BYTES", "MAX_DEPTH", "MAX_NODES", "Document", "read_bytes", "decode",
+__all__ = ["MAX_FILE_BYTES", "MAX_DEPTH", "MAX_NODES", "MAX_EXPANDED_CHARS", "Document", "read_bytes", "decode",
            "parse_text", "dotted"]
 
 #: Largest scenario file read, in bytes (2 MiB = 2 * 1024 * 1024).
@@ -29,6 +30,11 @@ MAX_FILE_BYTES = 2 * 1024 * 1024
 MAX_DEPTH = 40
 #: Most nodes visited (aliases count every time they are expanded).
 MAX_NODES = 200_000
+#: Most characters of text in all values and keys once aliases are expanded: no more
+#: than the largest file holds written out. Without it, one long text used through
+#: an alias thousands of times costs what gigabytes of file would (each use is
+#: checked, matched and quoted on its own).
+MAX_EXPANDED_CHARS = MAX_FILE_BYTES
 
 _CORE = "tag:yaml.org,2002:"
 _SCALAR_TAGS = {_CORE + t for t in ("str", "int", "float", "bool", "null", "timestamp")}
@@ -74,16 +80,24 @@ class Document:
         return self.locations.get((), None)
 
 
+#: What a path names when it is not a regular file, by ``stat`` file type.
+_NOT_A_FILE = ((stat.S_ISDIR, "a directory"), (stat.S_ISFIFO, "a named pipe (FIFO)"),
+               (stat.S_ISCHR, "a character device"), (stat.S_ISBLK, "a block device"),
+               (stat.S_ISSOCK, "a socket"))
+
+
 def read_bytes(path: str | os.PathLike, doc: Document) -> Optional[bytes]:
-    """The file's bytes, or ``None`` with a problem (missing, unreadable, too large)."""
+    """The file's bytes, or ``None`` with a problem (missing, unreadable, too large,
+    not a regular file).
+
+    The file is opened without blocking and checked on the open descriptor
+    (``fstat``) before anything is read: a named pipe, a device or a socket would
+    block the reader or never end, so only a regular file is read.
+    """
+    flags = os.O_RDONLY | getattr(os, "O_NONBLOCK", 0) | getattr(os, "O_NOCTTY", 0) \
+        | getattr(os, "O_BINARY", 0)
     try:
-        size = os.path.getsize(path)
-        if size > MAX_FILE_BYTES:
-            doc.problem((), f"the file is {size} bytes, larger than the limit of "
-                            f"{MAX_FILE_BYTES} bytes (2 MiB)")
-            return None
-        with open(path, "rb") as fh:
-            raw = fh.read(MAX_FILE_BYTES + 1)
+        fd = os.open(path, flags)
     except FileNotFoundError:
         doc.problem((), "no such file")
         return None
@@ -93,6 +107,34 @@ def read_bytes(path: str | os.PathLike, doc: Document) -> Optional[bytes]:
     except OSError as exc:
         doc.problem((), f"cannot read the file: {exc.strerror or exc}")
         return None
+    except ValueError:  # a NUL character in the name
+        doc.problem((), "not a usable file name (it holds a NUL character)")
+        return None
+    try:
+        info = os.fstat(fd)
+        if not stat.S_ISREG(info.st_mode):
+            what = next((word for test, word in _NOT_A_FILE if test(info.st_mode)),
+                        "not a regular file")
+            doc.problem((), f"is {what}, not a regular file: a scenario is read from a "
+                            f"file on disk")
+            return None
+        if info.st_size > MAX_FILE_BYTES:
+            doc.problem((), f"the file is {info.st_size} bytes, larger than the limit of "
+                            f"{MAX_FILE_BYTES} bytes (2 MiB)")
+            return None
+        chunks, size = [], 0
+        while size <= MAX_FILE_BYTES:
+            chunk = os.read(fd, MAX_FILE_BYTES + 1 - size)
+            if not chunk:
+                break
+            chunks.append(chunk)
+            size += len(chunk)
+        raw = b"".join(chunks)
+    except OSError as exc:
+        doc.problem((), f"cannot read the file: {exc.strerror or exc}")
+        return None
+    finally:
+        os.close(fd)
     if len(raw) > MAX_FILE_BYTES:
         doc.problem((), f"the file is larger than the limit of {MAX_FILE_BYTES} bytes (2 MiB)")
         return None
@@ -123,7 +165,7 @@ def parse_text(text: str, doc: Document) -> None:
         doc.problem((), f"the text is larger than the limit of {MAX_FILE_BYTES} bytes (2 MiB)")
         return
     try:
-        if not _depth_ok(text, doc):
+        if not _shape_ok(text, doc):
             return
         loader = _Loader(text)
         try:
@@ -150,23 +192,33 @@ def parse_text(text: str, doc: Document) -> None:
     except yaml.YAMLError as exc:
         doc.problem((), f"not valid YAML: {exc}")
         return
-    except RecursionError:
-        doc.problem((), "not usable YAML: nested too deeply")
-        return
     if node is None:
         doc.problem((), "the file is empty: a scenario starts with `format: railfault/1`",
                     (1, 1))
         return
     walker = _Walker(doc, loader)
+    # the document itself is located at its first value: a key missing at the top
+    # level is reported there
+    doc.locations[()] = walker._mark(node)
     doc.data = walker.walk(node, (), 0)
 
 
-def _depth_ok(text: str, doc: Document) -> bool:
-    """Stream the parser's events (no recursion) and refuse nesting deeper than
-    :data:`MAX_DEPTH` before the composer (which recurses) sees the text."""
+def _shape_ok(text: str, doc: Document) -> bool:
+    """Stream the parser's events (no recursion, nothing built) and refuse, before the
+    composer sees the text: nesting deeper than :data:`MAX_DEPTH` (the composer
+    recurses), and more than :data:`MAX_NODES` values or :data:`MAX_EXPANDED_CHARS`
+    characters once every alias is expanded.
+
+    The expanded size of each anchored value is known when its last event has
+    passed, so an alias adds it in one step: a file of a million aliases is refused
+    at the alias that crosses a bound, after reading no further.
+    """
     events = _Loader(text)
     try:
         depth = 0
+        nodes = chars = aliases = 0
+        sizes: dict[str, tuple[int, int]] = {}   # anchor -> expanded (values, characters)
+        open_: list[tuple[Optional[str], int, int]] = []   # (anchor, nodes, chars) at start
         while events.check_event():
             ev = events.get_event()
             if isinstance(ev, (yaml.MappingStartEvent, yaml.SequenceStartEvent)):
@@ -176,8 +228,32 @@ def _depth_ok(text: str, doc: Document) -> bool:
                     doc.problem((), f"nested deeper than {MAX_DEPTH} levels",
                                 (mark.line + 1, mark.column + 1))
                     return False
+                open_.append((ev.anchor, nodes, chars))
+                nodes += 1
             elif isinstance(ev, (yaml.MappingEndEvent, yaml.SequenceEndEvent)):
                 depth -= 1
+                anchor, n0, c0 = open_.pop()
+                if anchor is not None:
+                    sizes[anchor] = (nodes - n0, chars - c0)
+            elif isinstance(ev, yaml.ScalarEvent):
+                nodes += 1
+                chars += len(ev.value)
+                if ev.anchor is not None:
+                    sizes[ev.anchor] = (1, len(ev.value))
+            elif isinstance(ev, yaml.AliasEvent):
+                n, c = sizes.get(ev.anchor, (1, 0))  # unknown or still open: the composer says
+                aliases += 1
+                nodes += n
+                chars += c
+            else:
+                continue
+            if nodes > MAX_NODES or chars > MAX_EXPANDED_CHARS:
+                mark = ev.start_mark
+                what = (f"too many values (more than {MAX_NODES}" if nodes > MAX_NODES else
+                        f"too much text (more than {MAX_EXPANDED_CHARS} characters")
+                how = " once every alias is expanded): use fewer aliases" if aliases else ")"
+                doc.problem((), f"{what}{how}", (mark.line + 1, mark.column + 1))
+                return False
         return True
     finally:
         events.dispose()
@@ -187,22 +263,12 @@ class _Walker:
     def __init__(self, doc: Document, loader: yaml.SafeLoader):
         self.doc = doc
         self.loader = loader
-        self.count = 0
         self.active: set[int] = set()
-        self.stopped = False
 
     def _mark(self, node) -> tuple[int, int]:
         return node.start_mark.line + 1, node.start_mark.column + 1
 
     def walk(self, node, path: tuple, depth: int) -> Any:
-        if self.stopped:
-            return None
-        self.count += 1
-        if self.count > MAX_NODES:
-            self.doc.problem(path, f"too many values (more than {MAX_NODES}, counting "
-                                   f"every use of an alias)", self._mark(node))
-            self.stopped = True
-            return None
         if depth > MAX_DEPTH:
             self.doc.problem(path, f"nested deeper than {MAX_DEPTH} levels", self._mark(node))
             return None
@@ -254,6 +320,8 @@ class _Walker:
         if tag == _CORE + "bool":
             return self.loader.construct_yaml_bool(node)
         if tag == _CORE + "int":
+            # a core tag on text that is no number (`!!int abc`), or an integer of more
+            # digits than Python converts: mistakes of the file, located
             try:
                 return self.loader.construct_yaml_int(node)
             except (ValueError, TypeError):

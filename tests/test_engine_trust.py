@@ -137,8 +137,11 @@ def test_self_reversing_booster_in_a_fight_is_held():
 
 def test_zero_ohm_supply_with_a_leak_beside_the_fault():
     res = _run("zero-ohm-supply")
-    # 16 V / (0.001 + 0.04 + 0.002 + 0.001 || 1e9) ohm = 363.6 A; trips 3 ms later
-    i_a = 16.0 / (0.001 + 0.04 + 0.002 + 1.0 / (1.0 / 0.001 + 1.0 / 1e9))
+    # 16 V / (0.001 + 0.04 + 0.002 + 0.001 || 1e6) ohm = 363.6 A in all; the 1 mohm
+    # fault carries its share 1e6 / (1e6 + 0.001) of it (the leak, 0.36 uA, is a fault
+    # of its own, below any threshold); trips 3 ms later
+    i_total_a = 16.0 / (0.001 + 0.04 + 0.002 + 1.0 / (1.0 / 0.001 + 1.0 / 1e6))
+    i_a = i_total_a * 1e6 / (1e6 + 0.001)
     assert [e.peak_a for e in res.episodes] == pytest.approx([i_a] * 3, rel=1e-9)
     assert [e.acted_s for e in res.episodes] == pytest.approx([0.503, 1.006, 1.509], abs=1e-9)
 

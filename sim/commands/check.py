@@ -1,42 +1,21 @@
-"""``railfault check FILE [--json] [--step 0.5m]``: static and circuit checks of a layout."""
+"""``railfault check FILE [--json] [--step 0.5m]``: static and circuit checks of a layout.
+
+A thin layer over :func:`sim.api.check`: parse, call, print.
+"""
 from __future__ import annotations
 
 import json
 
-from sim.commands.common import (CAUTION, EXIT_FAIL, EXIT_PASS, FAULT_HEADERS, add_common,
-                                 emit, fault_row, quantity_arg)
+from sim.commands.common import (CAUTION, FAULT_HEADERS, add_common, check_output, emit,
+                                 exit_status, fault_row, quantity_arg)
 from sim.textfmt import table as _table
+
 
 def check_result(path: str, step_m: float = 0.5) -> dict:
     """Load ``path`` and run every static and circuit check; the contract's JSON object."""
-    from sim.checks import run_checks
-    from sim.checks.wiring import wiring_rows
-    from sim.circuit import check_findings
-    from sim.layout import build_layout
-    from sim.scenario import load
+    from sim import api
 
-    scn = load(path)
-    layout = build_layout(scn)
-    report = run_checks(scn, layout)
-    circuit_findings, rows, fm = check_findings(scn, layout, step_m=step_m, with_map=True)
-    findings = list(report.findings) + list(circuit_findings)
-    order = {"error": 0, "warning": 1, "info": 2}
-    findings.sort(key=lambda f: (order.get(f.severity, 3), f.code, f.where))
-    verdict = "fail" if any(f.severity == "error" for f in findings) else "pass"
-    res = {
-        "format": "railfault-check/1",
-        "scenario": {"title": scn.title, "path": scn.path, "sha256": scn.sha256},
-        "verdict": verdict,
-        "findings": [f.as_dict() for f in findings],
-        "reversing": [dict(r) for r in report.reversing],
-        "fault_current": [dict(r) for r in rows],
-        "wiring": wiring_rows(scn, layout),
-    }
-    if fm is not None:
-        res["coin_test"] = {"points": len(fm.points), "step_m": fm.step_m,
-                            "step_asked_m": fm.step_asked_m, "max_points": fm.max_points,
-                            "text": fm.describe()}
-    return res
+    return api.check(api.load(path), step_m=step_m).as_dict()
 
 
 def _wiring_table(rows: list) -> str:
@@ -56,7 +35,7 @@ def _wiring_table(rows: list) -> str:
 
 
 def render_check(res: dict) -> str:
-    """Human-readable report of :func:`check_result`."""
+    """Human-readable report of a ``railfault-check/1`` object (:func:`check_result`)."""
     out = [f"railfault check: {res['scenario']['title']}  ({res['scenario']['path']})", ""]
     causes = [f for f in res["findings"] if not f.get("because")]
     follow = [f for f in res["findings"] if f.get("because")]
@@ -101,12 +80,15 @@ def render_check(res: dict) -> str:
 
 
 def cmd_check(args) -> int:
-    res = check_result(args.file, step_m=args.step)
-    text = json.dumps(res, indent=2) if args.json else render_check(res)
-    emit(text, args.output)
-    return EXIT_PASS if res["verdict"] == "pass" else EXIT_FAIL
+    from sim import api
 
-
+    check_output(args.output, [args.file])
+    res = api.check(api.load(args.file), step_m=args.step).as_dict()
+    if args.json:
+        emit(json.dumps(res, indent=2), args.output, json=True)
+    else:
+        emit(render_check(res), args.output)
+    return exit_status(res["verdict"])
 
 
 def register(sub) -> None:

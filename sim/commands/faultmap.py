@@ -1,45 +1,42 @@
-"""``railfault faultmap FILE [--json] [--step 0.5m] [--coin 0.01ohm]``: the coin test everywhere."""
+"""``railfault faultmap FILE [--json] [--step 0.5m] [--coin 0.01ohm]``: the coin test everywhere.
+
+A thin layer over :func:`sim.api.faultmap`: parse, call, print.
+"""
 from __future__ import annotations
 
 import json
 
-from sim.commands.common import (CAUTION, EXIT_FAIL, EXIT_PASS, FAULT_HEADERS, add_common,
-                                 emit, fault_row, quantity_arg)
+from sim.commands.common import (CAUTION, FAULT_HEADERS, add_common, check_output, emit,
+                                 exit_status, fault_row, quantity_arg)
 from sim.textfmt import table as _table
 
+
+def render_faultmap(res) -> str:
+    """Human-readable report of a :class:`sim.api.FaultMapResult`."""
+    d = res.as_dict()
+    parts = [f"railfault faultmap: {res.scenario.title}  (coin {res.coin_ohm:g} ohm, step "
+             f"{res.step_m:g} m)", res.sampling, "", _table(FAULT_HEADERS, [fault_row(r) for r in
+                                                               d["fault_current"]]), ""]
+    if d["findings"]:
+        parts += ["Findings", _table(["severity", "code", "where", "message"],
+                                     [[f["severity"].upper(), f["code"], f["where"], f["message"]]
+                                      for f in d["findings"]]), ""]
+    parts.append("Verdict: PASS - every point trips its devices." if res.verdict == "pass"
+                 else "Verdict: FAIL - some shorts would not trip (see above).")
+    parts += ["", CAUTION]
+    return "\n".join(parts)
+
+
 def cmd_faultmap(args) -> int:
-    from sim.circuit.faultmap import fault_map
-    from sim.layout import build_layout
-    from sim.scenario import load
+    from sim import api
 
-    scn = load(args.file)
-    layout = build_layout(scn)
-    fmap = fault_map(scn, layout, step_m=args.step, r_coin_ohm=args.coin)
-    rows = [dict(r) for r in fmap.rows]
-    findings = [f.as_dict() for f in fmap.findings]
-    verdict = "fail" if any(f["severity"] == "error" for f in findings) else "pass"
+    check_output(args.output, [args.file])
+    res = api.faultmap(api.load(args.file), step_m=args.step, coin_ohm=args.coin)
     if args.json:
-        text = json.dumps({"format": "railfault-faultmap/1", "verdict": verdict,
-                           "step_m": fmap.step_m, "step_asked_m": args.step,
-                           "points": len(fmap.points), "max_points": fmap.max_points,
-                           "coin_ohm": args.coin,
-                           "findings": findings, "fault_current": rows}, indent=2)
+        emit(json.dumps(res.as_dict(), indent=2), args.output, json=True)
     else:
-        table = _table(FAULT_HEADERS, [fault_row(r) for r in rows])
-        parts = [f"railfault faultmap: {scn.title}  (coin {args.coin:g} ohm, step {fmap.step_m:g} m)",
-                 fmap.describe(), "", table, ""]
-        if findings:
-            parts += ["Findings", _table(["severity", "code", "where", "message"],
-                                         [[f["severity"].upper(), f["code"], f["where"], f["message"]]
-                                          for f in findings]), ""]
-        parts.append("Verdict: PASS - every point trips its devices." if verdict == "pass"
-                     else "Verdict: FAIL - some shorts would not trip (see above).")
-        parts += ["", CAUTION]
-        text = "\n".join(parts)
-    emit(text, args.output)
-    return EXIT_PASS if verdict == "pass" else EXIT_FAIL
-
-
+        emit(render_faultmap(res), args.output)
+    return exit_status(res.verdict)
 
 
 def register(sub) -> None:

@@ -1,25 +1,26 @@
-"""``railfault run FILE [--json] [--events] [--until T]``: play the scenario in the event engine."""
+"""``railfault run FILE [--json] [--events] [--until T]``: play the scenario in the event engine.
+
+A thin layer over :func:`sim.api.run`: parse, call, print.
+"""
 from __future__ import annotations
 
 import json
 
-from sim.commands.common import CAUTION, EXIT_FAIL, EXIT_PASS, add_common, emit, quantity_arg
+from sim.commands.common import (CAUTION, add_common, check_output, emit, exit_status,
+                                 quantity_arg)
+
 
 def cmd_run(args) -> int:
-    from sim.scenario import load
-    from sim.world import run
+    from sim import api
     from sim.world.render import render_text
 
-    scn = load(args.file)
-    result = run(scn, until_s=args.until, keep_events=args.events)
+    check_output(args.output, [args.file])
+    result = api.run(api.load(args.file), until_s=args.until, keep_events=args.events)
     if args.json:
-        text = json.dumps(result.as_dict(), indent=2)
+        emit(json.dumps(result.as_dict(), indent=2), args.output, json=True)
     else:
-        text = render_text(result) + "\n\n" + CAUTION
-    emit(text, args.output)
-    return EXIT_PASS if result.verdict == "pass" else EXIT_FAIL
-
-
+        emit(render_text(result) + "\n\n" + CAUTION, args.output)
+    return exit_status(result.verdict)
 
 
 def register(sub) -> None:

@@ -3,15 +3,15 @@ from __future__ import annotations
 
 import json
 
-from sim.commands.common import EXIT_PASS, emit
+from sim.commands.common import EXIT_PASS, check_output, emit
+
 
 def cmd_schema(args) -> int:
     from sim.schema import json_schema
 
-    emit(json.dumps(json_schema(), indent=2), args.output)
+    check_output(args.output)
+    emit(json.dumps(json_schema(), indent=2), args.output, json=True)
     return EXIT_PASS
-
-
 
 
 def register(sub) -> None:
