@@ -1,10 +1,41 @@
 """railfault world: the event engine that plays a scenario.
 
-:func:`run` (from :mod:`sim.world.engine`) plays a scenario in a simpy world
-and returns a :class:`sim.trace.Result`; :func:`sim.world.render.render_text`
+:func:`run` plays a scenario in a simpy world (:func:`sim.world.engine.run`) and
+returns its :class:`sim.trace.Result` diagnosed (:func:`sim.diagnose.diagnose`:
+one finding per cause, the headline, the verdict); :func:`sim.world.render.render_text`
 prints it for people. Trains in closed form live in :mod:`sim.world.trains`,
 the plain fixed-step reference used by the tests in :mod:`sim.world.fixedstep`.
 """
-from sim.world.engine import World, run
+from typing import Optional
 
-__all__ = ["World", "run"]
+from sim.world.engine import World
+from sim.world.engine import run as play
+
+__all__ = ["World", "run", "play"]
+
+
+def run(scn, until_s: Optional[float] = None, keep_events: bool = False,
+        static: Optional[list] = None):
+    """Play a scenario and diagnose the run.
+
+    Parameters
+    ----------
+    scn : Scenario
+        A loaded scenario (:func:`sim.scenario.load`).
+    until_s : float, optional
+        Simulate up to this instant instead of ``scn.duration_s``.
+    keep_events : bool
+        Keep every event in ``Result.events`` (``railfault run --events``).
+    static : list of Finding, optional
+        The findings of ``railfault check`` for ``scn``, when the caller has them
+        (computed otherwise: a run and ``check`` must agree).
+
+    Returns
+    -------
+    sim.trace.Result
+        With ``findings`` one per cause (and what follows from each), ``headline``
+        and ``verdict``.
+    """
+    from sim.diagnose import diagnose
+
+    return diagnose(scn, play(scn, until_s=until_s, keep_events=keep_events), static=static)
