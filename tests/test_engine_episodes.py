@@ -162,7 +162,7 @@ def test_result_json_contract():
     d = json.loads(json.dumps(res.as_dict(), allow_nan=False))
     assert d["format"] == "railfault-result/1"
     assert set(d) == {"format", "scenario", "seed", "duration_s", "verdict", "findings",
-                      "episodes", "devices", "events"}
+                      "episodes", "devices", "events", "headline"}
     assert set(d["episodes"][0]) == {"start_s", "end_s", "kind", "where", "train", "peak_a",
                                      "outcome", "acted", "acted_s", "margins", "margin_s"}
     assert set(d["devices"]["rev"]) == {"kind", "trips", "swaps", "restarts", "dark_s",

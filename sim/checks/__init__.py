@@ -34,6 +34,7 @@ from sim.checks.phasing import check_phasing
 from sim.checks.polarity import check_polarity, reversing_cycles
 from sim.checks.train_length import check_train_length
 from sim.model import Finding, Scenario
+from sim.verdict import SEVERITY_ORDER, sort_findings
 
 __all__ = ["CHECKS", "CheckReport", "run_checks", "SEVERITY_ORDER"]
 
@@ -46,9 +47,6 @@ CHECKS = (
     check_train_length,
     check_coordination,
 )
-
-SEVERITY_ORDER = {"error": 0, "warning": 1, "info": 2}
-
 
 @dataclass
 class CheckReport:
@@ -77,7 +75,7 @@ def run_checks(scn: Scenario, layout, checks=CHECKS) -> CheckReport:
     findings: list[Finding] = []
     for check in checks:
         findings.extend(check(scn, layout))
-    findings.sort(key=lambda f: (SEVERITY_ORDER.get(f.severity, 9), f.code, f.where))
+    findings = sort_findings(findings)
     reversing = [{"cycle": list(c["cycle"]), "covered_by": list(c["covered_by"])}
                  for c in reversing_cycles(scn, layout)]
     return CheckReport(findings, reversing)

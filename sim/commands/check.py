@@ -6,6 +6,7 @@ import json
 from sim.commands.common import (CAUTION, EXIT_FAIL, EXIT_PASS, FAULT_HEADERS, add_common,
                                  emit, fault_row, quantity_arg)
 from sim.textfmt import table as _table
+from sim.verdict import decide, sort_findings
 
 def check_result(path: str, step_m: float = 0.5) -> dict:
     """Load ``path`` and run every static and circuit check; the contract's JSON object."""
@@ -18,10 +19,8 @@ def check_result(path: str, step_m: float = 0.5) -> dict:
     layout = build_layout(scn)
     report = run_checks(scn, layout)
     circuit_findings, rows = check_findings(scn, layout, step_m=step_m)
-    findings = list(report.findings) + list(circuit_findings)
-    order = {"error": 0, "warning": 1, "info": 2}
-    findings.sort(key=lambda f: (order.get(f.severity, 3), f.code, f.where))
-    verdict = "fail" if any(f.severity == "error" for f in findings) else "pass"
+    findings = sort_findings(list(report.findings) + list(circuit_findings))
+    verdict = decide(findings)
     return {
         "format": "railfault-check/1",
         "scenario": {"title": scn.title, "path": scn.path, "sha256": scn.sha256},

@@ -6,6 +6,7 @@ import json
 from sim.commands.common import (CAUTION, EXIT_FAIL, EXIT_PASS, FAULT_HEADERS, add_common,
                                  emit, fault_row, quantity_arg)
 from sim.textfmt import table as _table
+from sim.verdict import decide, sort_findings
 
 def cmd_faultmap(args) -> int:
     from sim.circuit.faultmap import fault_map
@@ -16,8 +17,8 @@ def cmd_faultmap(args) -> int:
     layout = build_layout(scn)
     fmap = fault_map(scn, layout, step_m=args.step, r_coin_ohm=args.coin)
     rows = [dict(r) for r in fmap.rows]
-    findings = [f.as_dict() for f in fmap.findings]
-    verdict = "fail" if any(f["severity"] == "error" for f in findings) else "pass"
+    findings = [f.as_dict() for f in sort_findings(fmap.findings)]
+    verdict = decide(fmap.findings)
     if args.json:
         text = json.dumps({"format": "railfault-faultmap/1", "verdict": verdict,
                            "step_m": args.step, "coin_ohm": args.coin,

@@ -10,6 +10,7 @@ A, A²s); the verdict is spelled out in words, never carried by colour alone.
 """
 from __future__ import annotations
 
+import re
 import textwrap
 from collections import Counter
 from typing import Optional
@@ -60,9 +61,15 @@ def _data_text(data) -> str:
     return ", ".join(out)
 
 
+#: A number and its unit stay on one line when text is wrapped.
+_NUMBER_UNIT = re.compile(r"(\d) (ms|s|A|A²s|V|mm|m|ohm|%)(?=[\s,;:).\]]|$)")
+
+
 def _wrap(text: str, first: str, rest: str) -> list[str]:
-    return textwrap.wrap(text, _WIDTH, initial_indent=first, subsequent_indent=rest,
-                         break_on_hyphens=False) or [first.rstrip()]
+    glued = _NUMBER_UNIT.sub("\\1\u00a0\\2", text)
+    lines = textwrap.wrap(glued, _WIDTH, initial_indent=first, subsequent_indent=rest,
+                          break_on_hyphens=False) or [first.rstrip()]
+    return [line.replace("\u00a0", " ") for line in lines]
 
 
 def _ref(f) -> str:

@@ -81,7 +81,7 @@ def find(facts: RunFacts, claimed: set) -> list[Cause]:
                     last_s=last),
             f"supply {s} at its {a_text(limit_a)} limit "
             + ("switches off, taking down " if switched else "browns out ")
-            + ", ".join(on_it)
+            + ", ".join(on_it if switched or not drops else drops)
             + (f" (from {t_text(first)})" if first is not None else ""),
             episodes=eps, dark=dark,
             sections=tuple(x for b in on_it for x in facts.sections_of(b))))
