@@ -18,23 +18,15 @@ def run(scn, until_s: Optional[float] = None, keep_events: bool = False,
         static: Optional[list] = None):
     """Play a scenario and diagnose the run.
 
-    Parameters
-    ----------
-    scn : Scenario
-        A loaded scenario (:func:`sim.scenario.load`).
-    until_s : float, optional
-        Simulate up to this instant instead of ``scn.duration_s``.
-    keep_events : bool
-        Keep every event in ``Result.events`` (``railfault run --events``).
-    static : list of Finding, optional
-        The findings of ``railfault check`` for ``scn``, when the caller has them
-        (computed otherwise: a run and ``check`` must agree).
+    ``scn``, ``until_s`` and ``keep_events`` are those of :func:`sim.world.engine.run`;
+    ``static`` is the list of findings of ``railfault check`` for ``scn`` when the
+    caller has them (computed otherwise: a run and ``check`` must agree).
 
     Returns
     -------
     sim.trace.Result
         With ``findings`` one per cause (and what follows from each), ``headline``
-        and ``verdict``.
+        and ``verdict`` (:func:`sim.diagnose.diagnose`).
     """
     from sim.diagnose import diagnose
 
