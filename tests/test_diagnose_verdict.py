@@ -140,3 +140,33 @@ def test_json_carries_the_headline_and_grouped_findings():
     assert {f["code"] for f in grouped} == {"RF-RUN-031", "RF-RUN-001"}
     assert all(f["first_s"] == pytest.approx(2.65) for f in grouped)
     assert [f.get("because") for f in d["findings"]] == [None, "RF-RUN-031 loop1.b~loop2.a"]
+
+
+def test_headline_leads_with_the_district_dark_for_most_of_the_run():
+    # inrush-lockout.yaml: the lost race at 0.75 s comes first in time and is an error
+    # too, but yard dark for 239.998 s of 300 s (80 %) is the headline
+    res = run(load(DIAG / "inrush-lockout.yaml"))
+    assert len(res.headline) == 2
+    assert res.headline[0] == ("breaker yard dark for 239.998 s of 300.000 s (80 %): breaker "
+                               "yard locked out by keep-alive inrush: 3 restarts failed and it "
+                               "gave up")
+    assert res.headline[1].startswith("reversing controller rev is too slow")
+    assert [f.code for f in res.findings if not f.because][:2] == ["RF-RUN-034", "RF-RUN-036"]
+
+
+SCENARIOS = sorted((ROOT / "scenarios").glob("*.yaml")) + sorted(
+    p for d in ("run", "diagnose", "checks") for p in (ROOT / "tests" / "scenarios" / d).glob("*.yaml"))
+
+
+@pytest.mark.parametrize("path", SCENARIOS, ids=lambda p: f"{p.parent.name}/{p.name}")
+def test_every_scenario_is_diagnosed(path):
+    res = run(load(path))
+    d = json.loads(json.dumps(res.as_dict(), allow_nan=False))
+    assert d["verdict"] == decide(res.findings)
+    refs = {f"{f.code} {f.where}" for f in res.findings if not f.because}
+    assert all(f.because in refs for f in res.findings if f.because)
+    for f in res.findings:        # a finding of several occurrences knows when they were
+        assert f.count >= 1
+        if f.count > 1 and f.code.startswith("RF-RUN"):
+            assert f.first_s is not None and f.last_s >= f.first_s
+    assert ("Verdict: PASS" in render_text(res)) == (res.verdict == "pass")

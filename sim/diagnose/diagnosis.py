@@ -62,6 +62,14 @@ def _capped(f: Finding, cause: Cause) -> Finding:
     return replace(f, severity=sev, because=cause.ref)
 
 
+def _timed(f: Finding, cause: Cause) -> Finding:
+    """An engine finding of several occurrences without instants takes its cause's
+    (the occurrences are the episodes the cause explains)."""
+    if f.count > 1 and f.first_s is None and cause.finding.first_s is not None:
+        return replace(f, first_s=cause.finding.first_s, last_s=cause.finding.last_s)
+    return f
+
+
 def diagnose_facts(facts: RunFacts) -> Diagnosis:
     """The causes, findings and headline of one run's facts (module docstring)."""
     claimed: set = set()
@@ -101,7 +109,7 @@ def diagnose_facts(facts: RunFacts) -> Diagnosis:
         findings.append(c.finding)
         findings += [_capped(sg.finding(t_margin_required_s=req_s), c)
                      for sg, owner in follows if owner is c]
-        findings += [_capped(f, c) for f, owner in reported if owner is c]
+        findings += [_capped(_timed(f, c), c) for f, owner in reported if owner is c]
         findings += [f for f in static if f.because == c.ref]
     findings += [f for f in static if not f.because]
     return Diagnosis(findings, headline_lines(facts, ranked, static), ranked)
