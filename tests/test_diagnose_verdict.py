@@ -110,7 +110,8 @@ def test_long_let_through_is_stated_beside_the_verdict():
     d = diagnose_facts(facts)
     (lt,) = [f for f in d.findings if f.code == "RF-RUN-041"]
     assert lt.severity == "warning"
-    assert "let through up to 8 A²s, the longest for 500.000 ms at up to 4.00 A" in lt.message
+    assert "1 overload lasting up to 500.000 ms at up to 4.00 A, letting through up to 8 A²s" \
+        in lt.message
     assert decide(d.findings) == "pass"
     assert d.headline == ["long let-through at east: 500.000 ms, 8 A²s"]
 

@@ -2,7 +2,7 @@
 cause with its fix, then the tables.
 
 Order: the verdict in words and the headline (the worst problems first, one line
-per cause), long let-throughs beside it; the findings, each cause with its fix
+per cause; a long let-through is one of them, beside the verdict); the findings, each cause with its fix
 and, under it, what only follows from it (``because``); the short episodes
 (grouped by place; every one of them with ``--events``), the device summary and,
 with ``--events``, every event. Every number printed carries its unit (ms, s,
@@ -31,9 +31,6 @@ OUTCOME_WORDS = {
     "dropout": "DROPOUT (supply at its limit)",
     "unresolved": "UNRESOLVED",
 }
-
-#: Code of a long let-through, stated beside the verdict.
-LET_THROUGH_CODE = "RF-RUN-041"
 
 #: How a grouped symptom's message begins (it names its place itself).
 _PLACE_WORDS = ("gap ", "fault ", "overload of ", "static check")
@@ -91,16 +88,13 @@ def _verdict_lines(result: Result) -> list[str]:
     if result.verdict == "pass":
         head = ("Verdict: PASS - every gap short was cleared by a swap or ended by itself, "
                 "with the required margin")
-        head += f" ({len(warnings)} warning(s), see below)." if warnings else "."
+        head += f" ({plural(len(warnings), 'warning')}, see below)." if warnings else "."
     else:
         n = len([f for f in causes if f.severity == "error"]) or len(errors)
         head = f"Verdict: FAIL - {plural(n, 'cause')} of trouble; the worst first:"
     out = [head]
     for i, line in enumerate(result.headline, 1):
         out += _wrap(line, f"  {i}. ", "     ")
-    for f in result.findings:
-        if f.code == LET_THROUGH_CODE:
-            out += _wrap(f"{f.message}", "  Let-through: ", "     ")
     if result.t_margin_required_s:
         out.append(f"Required timing margin: {result.t_margin_required_s * 1e3:.3f} ms")
     return out
@@ -177,7 +171,7 @@ def render_text(result: Result, detail: Optional[bool] = None) -> str:
     Returns
     -------
     str
-        A title line; the verdict and the headline (long let-throughs beside it);
+        A title line; the verdict and the headline (long let-throughs among it);
         the findings, each cause with its fix and what follows from it; the
         short episodes; the device summary (trips, swaps, restarts, dark time,
         peak current, thermal level); with ``--events`` every event.

@@ -10,11 +10,13 @@ the run)
     not shorter than the upstream one's, its sensing full scale) and the fix
     gives the setting it needs.
 RF-RUN-041 (warning)
-    A long let-through: a fault or overload episode during which a device
-    carried the short current for at least :data:`LONG_LET_THROUGH_S` before
-    it was cleared (an inverse-time or thermal delay, a high threshold). Its
-    I²t (the episode's ``i2t_a2s``, in A²s) is the heat it put into rails,
-    wire and wheels; stated beside the verdict.
+    A long let-through: a short or overload episode that lasted at least
+    :data:`LONG_LET_THROUGH_S` before it ended (an inverse-time or thermal delay,
+    a threshold above the short's current, a bridge that ended by itself). Its
+    I²t (the episode's ``i2t_a2s``, in A²s) is the heat it put into rails, wire
+    and wheels; stated beside the verdict (in the headline). An episode still
+    flowing at the end of the run is not one: it is a short not cleared
+    (RF-RUN-002, RF-RUN-005).
 """
 from __future__ import annotations
 
@@ -91,27 +93,24 @@ def find(facts: RunFacts, claimed: set) -> list[Cause]:
 
 
 def find_let_through(facts: RunFacts) -> list[Cause]:
-    """RF-RUN-041 for every place whose fault or overload episodes let a short current
-    through for :data:`LONG_LET_THROUGH_S` or longer (module docstring)."""
+    """RF-RUN-041 for every place whose episodes let a short current through for
+    :data:`LONG_LET_THROUGH_S` or longer (module docstring)."""
     groups: dict = {}
     for e in facts.episodes:
-        if e.kind not in ("fault", "overload"):
+        if e.end_s is None:
             continue
-        end = e.end_s if e.end_s is not None else facts.t_end_s
-        if end - e.start_s >= LONG_LET_THROUGH_S:
+        if e.end_s - e.start_s >= LONG_LET_THROUGH_S:
             groups.setdefault(e.where, []).append(e)
     causes = []
     for where, eps in groups.items():
         g = EpisodeGroup(where, eps[0].kind, eps)
-        longest = max((e.end_s if e.end_s is not None else facts.t_end_s) - e.start_s
-                      for e in eps)
+        longest = max(e.end_s - e.start_s for e in eps)
         i2t = g.i2t_max_a2s
         dev = next((e.acted for e in eps if e.acted), None)
-        heat = f"let through up to {a2s_text(i2t)}" if i2t is not None else \
-            "let the short current through"
-        msg = (f"{place_word(g.kind)} {where}: {g.noun()} {heat}, the longest for "
-               f"{dur_text(longest)} at up to {a_text(g.peak_a)}: heat in rails, wire and wheels"
-               f" ({g.span_text()})")
+        msg = (f"{place_word(g.kind)} {where}: {g.noun()} lasting up to {dur_text(longest)} at up "
+               f"to {a_text(g.peak_a)}"
+               + (f", letting through up to {a2s_text(i2t)}" if i2t is not None else "")
+               + f": heat in rails, wire and wheels ({g.span_text()})")
         fix = ((f"make {dev} act sooner at {a_text(g.peak_a)} (a lower threshold or a shorter "
                 f"delay), or check that the wiring and rails carry {a_text(g.peak_a)} for "
                 f"{dur_text(longest)}") if dev else

@@ -20,7 +20,7 @@ from __future__ import annotations
 from sim.diagnose.cause import Cause
 from sim.diagnose.facts import RunFacts
 from sim.diagnose.groups import EpisodeGroup
-from sim.diagnose.text import a_text, plural, t_text
+from sim.diagnose.text import a_text, ms_text, plural, t_text
 from sim.model import Finding
 
 __all__ = ["find"]
@@ -68,12 +68,23 @@ def find(facts: RunFacts, claimed: set) -> list[Cause]:
             what += ("; " + ", ".join(f"{b} trips only above {a_text(trips[b])}" for b in blind)
                      + f", more than {s} can deliver, so "
                      + ("it" if len(blind) == 1 else "they") + " can never clear a short")
-        need_a = max(trips.values()) if trips else limit_a
-        fix = (f"give {s} a current limit above {a_text(need_a)} (the highest trip threshold "
-               f"of its boosters) so that a booster trips before the supply limits, or put fewer "
-               f"boosters on it ({len(on_it)} share its {a_text(limit_a)})")
         if blind:
-            fix += (f"; or set the trip of {' and '.join(blind)} below {a_text(limit_a)}")
+            need_a = max(trips.values())
+            fix = (f"give {s} a current limit above {a_text(need_a)} (the highest trip "
+                   f"threshold of its boosters) so that a booster trips before the supply "
+                   f"limits, or put fewer boosters on it ({len(on_it)} share its "
+                   f"{a_text(limit_a)}); or set the trip of {' and '.join(blind)} below "
+                   f"{a_text(limit_a)}")
+        else:
+            slowest = max(on_it, key=lambda b: scn.boosters[b].trip.t_after_s)
+            delay = scn.boosters[slowest].trip.t_after_s
+            what += (f"; the boosters on it trip below its limit, but it acts first")
+            fix = (f"give {s} more current than its {a_text(limit_a)} (a larger supply), or put "
+                   f"fewer boosters on it ({len(on_it)} share it)")
+            if sup.on_limit in ("hiccup", "latch"):
+                fix += (f"; or let it hold its limit for longer than {ms_text(delay)} ({slowest}'s "
+                        f"trip delay) before it switches off, so that the booster on the short "
+                        f"trips first")
         dark = tuple([s] + on_it)
         n = len(eps) or sum(drops.values()) or n_off or n_limit
         causes.append(Cause(
