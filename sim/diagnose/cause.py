@@ -51,13 +51,18 @@ class Cause:
     protection: bool = False
     sections: tuple = ()
     darkened: list = field(default_factory=list)
+    _ids: frozenset = field(default=frozenset(), init=False, repr=False)
+
+    def __post_init__(self):
+        self._ids = frozenset(id(e) for e in self.episodes)
 
     @property
     def ref(self) -> str:
         return ref(self.finding)
 
     def explains(self, ep) -> bool:
-        return any(e is ep for e in self.episodes)
+        """Whether ``ep`` is one of the episodes this cause explains."""
+        return id(ep) in self._ids
 
     def escalate(self, severity: str = "error") -> None:
         """Raise the finding's severity (a district dark for most of the run)."""

@@ -76,7 +76,7 @@ def find(facts: RunFacts, claimed: set) -> list[Cause]:
                     f"in all ({a_text(trip.i_above_a)} trip less {a_text(steady_a)} running "
                     f"draw; now {a_text(peak_a)}): a larger charging resistance")
         else:
-            fix += f", or split the district: its running draw alone reaches the trip"
+            fix += ", or split the district: its running draw alone reaches the trip"
         causes.append(Cause(
             Finding("error" if gave_up or facts.dark_most(dev) else "warning", "RF-RUN-034", dev, msg, fix, count=n, first_s=first, last_s=last),
             f"{facts.named(dev)} locked out by keep-alive inrush: {plural(n, 'restart')} "

@@ -133,7 +133,7 @@ def find(facts: RunFacts, claimed: set) -> list[Cause]:
     for jname, eps in fight.items():
         j = facts.joint(jname)
         (ra, sa), (rb, sb) = facts.reversers_at(j)[:2]
-        da, db = scn.device(ra), scn.device(rb)
+        da = scn.device(ra)
         ta = getattr(da, "t_sense_s", getattr(da, "t_sense_reverse_s", 0.0))
         g = EpisodeGroup(jname, "gap", eps)
         acted = tuple(dict.fromkeys(e.acted for e in eps if e.acted))

@@ -78,7 +78,7 @@ def find(facts: RunFacts, claimed: set) -> list[Cause]:
         else:
             slowest = max(on_it, key=lambda b: scn.boosters[b].trip.t_after_s)
             delay = scn.boosters[slowest].trip.t_after_s
-            what += (f"; the boosters on it trip below its limit, but it acts first")
+            what += ("; the boosters on it trip below its limit, but it acts first")
             fix = (f"give {s} more current than its {a_text(limit_a)} (a larger supply), or put "
                    f"fewer boosters on it ({len(on_it)} share it)")
             if sup.on_limit in ("hiccup", "latch"):
