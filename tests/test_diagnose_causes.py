@@ -197,3 +197,20 @@ def test_short_cleared_by_the_device_above_the_nearest():
     # east dark 6 - 1.004 = 4.996 s of 6 s: not the protection at work, so an error
     assert c.severity == "error" and res.verdict == "fail"
     assert res.headline[0].startswith("booster east dark for 4.996 s of 6.000 s (83 %)")
+
+
+def test_club_layout_gets_one_finding_per_cause():
+    # A wye, a balloon, lighted cars and a current-limited supply (club-layout.yaml):
+    # two mistakes, two causes, each with its fix; the wye that works says nothing.
+    res = _run("club-layout")
+    assert [f.code for f in _causes(res)] == ["RF-RUN-030", "RF-RUN-033"]
+    length = _one(res, "RF-RUN-030")
+    # mogul axle 1 at 30 mm to coach 3 axle 4 at 250 + 2 x 260 + 235 = 1005 mm: 975 mm
+    assert "train balloon-local spans 975 mm" in length.message
+    assert length.fix.startswith("lengthen balloon by more than 75 mm (to more than 975 mm)")
+    supply = _one(res, "RF-RUN-033")
+    assert supply.fix.startswith("give psu-main a current limit above 10.00 A")
+    assert all(f.because for f in res.findings if f not in _causes(res))
+    assert not [f for f in res.findings if "wye" in f.where]
+    assert res.devices["wye-tail-ctl"].swaps == 1
+    _no_faster(res)

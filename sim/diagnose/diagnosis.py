@@ -91,9 +91,15 @@ def diagnose_facts(facts: RunFacts) -> Diagnosis:
         if rest:
             causes.append(symptom_cause(facts, SymptomGroup(
                 sg.code, sg.severity, EpisodeGroup(sg.where, sg.group.kind, rest))))
-    causes.extend(find_let_through(facts))
+    reported: list[tuple[Finding, Cause]] = []
+    # a long let-through of episodes one specific cause explains follows from it
+    for lt in find_let_through(facts):
+        owners = [c for c in specific if all(c.explains(e) for e in lt.episodes)]
+        if owners:
+            reported.append((lt.finding, owners[0]))
+        else:
+            causes.append(lt)
     # the engine's own findings: tied to the lock-out cause of their device, or their own
-    reported: list[tuple[Finding, Optional[Cause]]] = []
     lockouts = {c.finding.where: c for c in specific if c.finding.code == "RF-RUN-034"}
     for f in group_reported(facts.engine_findings):
         owner = lockouts.get(f.where) if f.code == INRUSH_CODE else None

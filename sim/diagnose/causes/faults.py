@@ -120,5 +120,5 @@ def find_let_through(facts: RunFacts) -> list[Cause]:
                     last_s=g.last_s),
             f"long let-through at {where}: {dur_text(longest)}"
             + (f", {a2s_text(i2t)}" if i2t is not None else ""),
-            episodes=[]))
+            episodes=eps))
     return causes
