@@ -48,6 +48,7 @@ CHECKS = (
     check_coordination,
 )
 
+
 @dataclass
 class CheckReport:
     """Findings of the static checks and the reversing loops of the track.
