@@ -38,10 +38,10 @@ def test_misphased_gap_between_fixed_districts():
     res = _run("misphased-gap")
     assert [f.code for f in _causes(res)] == ["RF-RUN-031"]
     c = _one(res, "RF-RUN-031")
-    # 23 shorts: 2.650 s = (3.03 - 2.50) m / 0.2 m/s, then every 1.002 s (2 ms trip + 1 s retry)
+    # 23 shorts: from 0 s (the car stands on the gap), every 1.002 s (2 ms trip + 1 s retry)
     assert c.count == 23
-    assert c.first_s == pytest.approx(2.650, abs=1e-9)
-    assert c.last_s == pytest.approx(2.650 + 22 * 1.002, abs=1e-9)     # 24.694 s
+    assert c.first_s == pytest.approx(0.0, abs=1e-9)
+    assert c.last_s == pytest.approx(22 * 1.002, abs=1e-9)             # 22.044 s
     # the fewest settings to change, as railfault check finds them (RF-PHS-001)
     assert c.fix == "change 1 setting: booster west-bst: phase inverted -> normal"
     _no_faster(res)
@@ -49,11 +49,12 @@ def test_misphased_gap_between_fixed_districts():
     (g,) = [f for f in res.findings if f.because]
     assert (g.code, g.count, g.because) == ("RF-RUN-001", 23, "RF-RUN-031 loop1.b~loop2.a")
     assert "23 shorts of train t1, every one tripped east-bst first" in g.message
-    # peak through the bridge: 16 V / (0.05 + 0.202 / 2) ohm / 2 = 52.98 A (header)
+    # through each rail's bridge: 16 V / (0.05 + 0.202 / 2) ohm / 2 = 52.98 A (header)
     ep = res.episodes[0]
-    assert ep.peak_a == pytest.approx(52.98, rel=2e-3)
-    # east-bst dark 22 x 1 s + (30 - 24.696) s = 27.304 s of 30 s: the headline
-    assert res.headline[0].startswith("booster east-bst dark for 27.304 s of 30.000 s (91 %): "
+    paths = getattr(ep, "paths_a", None)
+    assert (max(paths.values()) if paths else ep.peak_a) == pytest.approx(52.98, rel=1e-3)
+    # east-bst dark 22 x 1 s + (30 - 22.046) s = 29.954 s of 30 s: the headline
+    assert res.headline[0].startswith("booster east-bst dark for 29.954 s of 30.000 s (100 %): "
                                       "gap loop1.b~loop2.a meets out of phase")
     assert res.verdict == "fail"
 

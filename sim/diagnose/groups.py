@@ -64,7 +64,7 @@ class EpisodeGroup:
     @property
     def i2t_max_a2s(self) -> Optional[float]:
         vals = [ep_get(e, "i2t_a2s") for e in self.episodes]
-        vals = [v for v in vals if v is not None]
+        vals = [v for v in vals if v]
         return max(vals) if vals else None
 
     @property

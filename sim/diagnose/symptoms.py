@@ -6,7 +6,8 @@ per place and the causes (:mod:`sim.diagnose.causes`) explain.
 
 Codes (their meaning is fixed; the texts are this module's)
 -----------------------------------------------------------
-RF-RUN-001 (error)    a gap short tripped a device.
+RF-RUN-001 (error)    a gap short tripped a device (or dropped out the boosters of
+                      a supply at its limit).
 RF-RUN-002 (error)    a gap short was not cleared: still flowing at the end of
                       the run, or swapped two or more times without clearing.
 RF-RUN-003 (error)    a negative timing margin: an upstream device tripped before
@@ -14,11 +15,9 @@ RF-RUN-003 (error)    a negative timing margin: an upstream device tripped befor
 RF-RUN-004 (error)    a timing margin below ``require.margin``.
 RF-RUN-005 (error)    a fault or overload short was not cleared: a short that does
                       not trip can overheat wiring.
-RF-RUN-010 (info)     a fault or overload tripped a device (the protection at work).
-
-An episode whose boosters dropped out on their supply's undervoltage (outcome
-``dropout``) has no symptom of its own here: its cause, the supply at its
-limit, is RF-RUN-033 (:mod:`sim.diagnose.causes.supply`).
+RF-RUN-010 (info)     a fault or overload tripped a device, or dropped out the
+                      boosters of its supply (the protection at work, or a
+                      supply at its limit: RF-RUN-033 says which).
 """
 from __future__ import annotations
 
@@ -46,9 +45,10 @@ def episode_findings(ep, t_margin_required_s: float) -> list[Finding]:
         out.append(Finding(sev, code, ep.where, message, first_s=ep.start_s,
                            last_s=ep.start_s))
 
-    if ep.kind == "gap" and ep.outcome == "tripped":
-        add("error", "RF-RUN-001",
-            f"gap short at {at}{who} tripped {ep.acted} at {t_text(ep.acted_s)}")
+    acted = (f"dropped out the boosters of {ep.acted}" if ep.outcome == "dropout"
+             else f"tripped {ep.acted}")
+    if ep.kind == "gap" and ep.outcome in ("tripped", "dropout"):
+        add("error", "RF-RUN-001", f"gap short at {at}{who} {acted} at {t_text(ep.acted_s)}")
     elif ep.outcome == "unresolved":
         code, what = ("RF-RUN-002", "gap short") if ep.kind == "gap" else \
             ("RF-RUN-005", f"{ep.kind} short")
@@ -59,9 +59,8 @@ def episode_findings(ep, t_margin_required_s: float) -> list[Finding]:
                    + (f", until {ep.acted} tripped at {t_text(ep.acted_s)}"
                       if ep.acted and ep.acted_s is not None else ""))
         add("error", code, f"{what} at {at}{who} {how}")
-    elif ep.outcome == "tripped":
-        add("info", "RF-RUN-010",
-            f"{ep.kind} at {at} tripped {ep.acted} at {t_text(ep.acted_s)}")
+    elif ep.outcome in ("tripped", "dropout"):
+        add("info", "RF-RUN-010", f"{ep.kind} at {at} {acted} at {t_text(ep.acted_s)}")
     if ep.margin_s is not None:
         if ep.margin_s < 0:
             add("error", "RF-RUN-003",

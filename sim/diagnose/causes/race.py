@@ -10,7 +10,8 @@ RF-RUN-036 (error)
     onset in the run (or, equally, lengthen that device's delay by as much).
 RF-RUN-037 (error)
     The reversing device never sensed the short: the short drew no more than
-    its sense level (or its sensing full scale clamps below it).
+    its sense level (or its sensing full scale clamps below it): the fix is its
+    sense level, below the most current it carried (its device summary's peak).
 RF-RUN-038 (error)
     Two reversing devices on the two sides of one gap swap against each other
     and never clear the short.
@@ -36,6 +37,14 @@ def _sense_level_a(scn, dev: str):
     if dev in scn.reversers:
         return d.sense_above_a
     return d.sense_reverse_a if d.sense_reverse_a is not None else d.trip.i_above_a
+
+
+def _carried_a(facts: RunFacts, r: str, e) -> float:
+    """The most current reversing device ``r`` carried: its own peak in the run when
+    the device summary has it (what it senses), else the episode's peak."""
+    d = facts.devices.get(r)
+    peak = getattr(d, "peak_a", 0.0) if d is not None else 0.0
+    return peak if peak and peak > 0 else e.peak_a
 
 
 def _slow(facts: RunFacts, e, r: str, req_s: float):
@@ -80,7 +89,7 @@ def find(facts: RunFacts, claimed: set) -> list[Cause]:
         elif e.outcome == "tripped" and not e.margins:
             lvl = _sense_level_a(scn, r)
             fs = scn.device(r).sense.full_scale_a
-            if e.peak_a <= lvl or fs <= lvl:
+            if _carried_a(facts, r, e) <= lvl or fs <= lvl:
                 blind.setdefault(r, []).append(e)
     causes = []
     for r, rows in slow.items():
@@ -116,10 +125,10 @@ def find(facts: RunFacts, claimed: set) -> list[Cause]:
         lvl = _sense_level_a(scn, r)
         fs = scn.device(r).sense.full_scale_a
         g = EpisodeGroup(eps[0].where, "gap", eps)
-        peak = g.peak_a
+        peak = max(_carried_a(facts, r, e) for e in eps)
         why = (f"its sensing reads at most {a_text(fs)} (full scale), not above its "
                f"{a_text(lvl)} sense level" if fs <= lvl else
-               f"the short drew at most {a_text(peak)}, not above its {a_text(lvl)} sense level")
+               f"it carried at most {a_text(peak)}, not above its {a_text(lvl)} sense level")
         fix = (f"raise {r}'s sensing full scale above {a_text(lvl)}" if fs <= lvl else
                f"lower {r}'s sense level below {a_text(peak)}")
         acted = tuple(dict.fromkeys(e.acted for e in eps if e.acted))
