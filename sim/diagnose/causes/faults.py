@@ -16,12 +16,14 @@ RF-RUN-041 (warning)
     I²t (the episode's ``i2t_a2s``, in A²s) is the heat it put into rails, wire
     and wheels; stated beside the verdict (in the headline). An episode still
     flowing at the end of the run is not one: it is a short not cleared
-    (RF-RUN-002, RF-RUN-005).
+    (RF-RUN-002, RF-RUN-005); nor is one during which a device carried more than
+    its trip level for longer than its trip delay (its ``overruns``): the engine
+    reports that let-through itself (RF-RUN-020, RF-RUN-021).
 """
 from __future__ import annotations
 
 from sim.diagnose.cause import Cause
-from sim.diagnose.facts import RunFacts
+from sim.diagnose.facts import RunFacts, ep_get
 from sim.diagnose.groups import EpisodeGroup, place_word
 from sim.diagnose.text import a2s_text, a_text, dur_text, ms_text
 from sim.model import Finding
@@ -97,7 +99,7 @@ def find_let_through(facts: RunFacts) -> list[Cause]:
     :data:`LONG_LET_THROUGH_S` or longer (module docstring)."""
     groups: dict = {}
     for e in facts.episodes:
-        if e.end_s is None:
+        if e.end_s is None or ep_get(e, "overruns"):
             continue
         if e.end_s - e.start_s >= LONG_LET_THROUGH_S:
             groups.setdefault(e.where, []).append(e)
