@@ -24,7 +24,7 @@ _HOW = {"none": "bonded joint", "one": "joint gapped on one rail only"}
 def _phase_word(facts: RunFacts, section: str) -> str:
     sec = facts.scn.track.sections[section]
     word = "normal" if facts.phases()[section] > 0 else "inverted"
-    leads = ", leads swapped" if sec.leads < 0 else ""
+    leads = ", leads swapped" if sec.leads is not None and sec.leads < 0 else ""
     return f"{section} in {word} phase{leads}"
 
 
