@@ -14,13 +14,19 @@ dark for most of the run (a lock-out), else a warning.
 
 The time above the threshold is the trip-window rule
 (:func:`sim.circuit.inrush.time_above_s`, ``tau ln(I_peak / (I_trip - I_steady))``)
-for the trains that can stand in the district (:func:`sim.circuit.windows.district_trains`).
+for the locomotives that power up together in the district, as the trip windows
+count them (:mod:`sim.circuit.windows`).
 """
 from __future__ import annotations
 
 from sim.circuit.faultmap import supply_of
 from sim.circuit.inrush import time_above_s
-from sim.circuit.windows import district_trains, train_load
+
+try:        # the trip windows' power-up load by the trains' schedules
+    from sim.circuit.windows import power_up_load
+except ImportError:     # a tree whose windows still count every train that can be there
+    power_up_load = None
+    from sim.circuit.windows import district_trains, train_load
 from sim.diagnose.cause import Cause
 from sim.diagnose.facts import RunFacts
 from sim.diagnose.text import a_text, dur_text, ms_text, plural, share_text, t_text
@@ -30,6 +36,17 @@ __all__ = ["find", "ENGINE_CODE"]
 
 #: The engine's own finding for one restart tripped on inrush.
 ENGINE_CODE = "RF-RUN-007"
+
+
+def _power_up(facts: RunFacts, dev: str, v_track_v: float):
+    """``(steady_a, inrush_peak_a, tau_s, trains)`` of the locomotives that power up
+    together when ``dev`` closes: the trip windows' own figures."""
+    secs = facts.sections_of(dev)
+    if power_up_load is not None:
+        steady, peak, tau, trains, _t = power_up_load(facts.scn, facts.layout, secs, v_track_v)
+        return steady, peak, tau, tuple(trains)
+    trains = district_trains(facts.scn, secs)
+    return (*train_load(facts.scn, trains, v_track_v), trains)
 
 
 def find(facts: RunFacts, claimed: set) -> list[Cause]:
@@ -49,13 +66,12 @@ def find(facts: RunFacts, claimed: set) -> list[Cause]:
         trip = scn.device(dev).trip
         sup = supply_of(scn, dev)
         v = scn.supplies[sup].v_emf_v if sup in scn.supplies else 0.0
-        trains = district_trains(scn, facts.sections_of(dev))
-        steady_a, peak_a, tau_s = train_load(scn, trains, v)
+        steady_a, peak_a, tau_s, trains = _power_up(facts, dev, v)
         t_over_s = time_above_s(steady_a, peak_a, tau_s, trip.i_above_a)
         dark_s = facts.dark_s(dev)
         gave_up = facts.count(dev, "give_up") > 0
-        msg = (f"{facts.named(dev)} cannot restart: the keep-alive capacitors of the trains that "
-               f"can stand in its district ({', '.join(trains) or 'none'}) charge at "
+        msg = (f"{facts.named(dev)} cannot restart: the keep-alive capacitors of the trains in "
+               f"its district ({', '.join(trains) or 'none'}) charge at "
                f"{a_text(peak_a)} in all ({v:g} V over each charging resistance), time constant "
                f"{ms_text(tau_s)}, on top of {a_text(steady_a)} running draw, and stay above its "
                f"{a_text(trip.i_above_a)} trip for {ms_text(t_over_s)}, longer than its "
