@@ -15,11 +15,11 @@ __all__ = ["World", "run", "play"]
 
 
 def run(scn, until_s: Optional[float] = None, keep_events: bool = False,
-        static: Optional[list] = None):
+        static: Optional[list] = None, **engine_kw):
     """Play a scenario and diagnose the run.
 
-    ``scn``, ``until_s`` and ``keep_events`` are those of :func:`sim.world.engine.run`;
-    ``static`` is the list of findings of ``railfault check`` for ``scn`` when the
+    ``scn``, ``until_s``, ``keep_events`` and any further keyword are those of
+    :func:`sim.world.engine.run`; ``static`` is the list of findings of ``railfault check`` for ``scn`` when the
     caller has them (computed otherwise: a run and ``check`` must agree).
 
     Returns
@@ -30,4 +30,5 @@ def run(scn, until_s: Optional[float] = None, keep_events: bool = False,
     """
     from sim.diagnose import diagnose
 
-    return diagnose(scn, play(scn, until_s=until_s, keep_events=keep_events), static=static)
+    result = play(scn, until_s=until_s, keep_events=keep_events, **engine_kw)
+    return diagnose(scn, result, static=static)
