@@ -231,7 +231,7 @@ def faultmap(scn: ScenarioLike, step_m: float = DEFAULT_STEP_M,
 
 
 def run(scn: ScenarioLike, until_s: Optional[float] = None,
-        keep_events: bool = False) -> Result:
+        keep_events: bool = False, event_budget: Optional[int] = None) -> Result:
     """Play the scenario in the event engine (``railfault run``).
 
     Parameters
@@ -242,6 +242,10 @@ def run(scn: ScenarioLike, until_s: Optional[float] = None,
         Stop at this instant instead of the scenario's duration, s.
     keep_events
         Keep every event (``--events``); without it events are summarised.
+    event_budget
+        The most engine events the run may take (``--budget``; default
+        :data:`sim.world.engine.EVENT_BUDGET`): a run that reaches it stops there
+        with RF-RUN-023 and cannot pass.
 
     Returns
     -------
@@ -251,4 +255,5 @@ def run(scn: ScenarioLike, until_s: Optional[float] = None,
     """
     from sim.world import run as play
 
-    return play(_scenario(scn), until_s=until_s, keep_events=keep_events)
+    kw = {} if event_budget is None else {"event_budget": int(event_budget)}
+    return play(_scenario(scn), until_s=until_s, keep_events=keep_events, **kw)

@@ -26,6 +26,9 @@ from types import MappingProxyType
 from typing import Iterable, Mapping, NamedTuple, Optional
 
 from sim.model import Finding
+# The verdict rule and the per-episode findings live in sim.verdict and sim.diagnose;
+# these names stay importable from here until every caller has moved.
+from sim.diagnose.symptoms import verdict_findings  # noqa: F401  (re-exported)
 from sim.verdict import decide  # noqa: F401  (re-exported)
 
 #: Format tag of the result JSON.
@@ -334,52 +337,3 @@ class Result:
         if self.events is not None:
             d["events"] = [e.as_dict() for e in self.events]
         return d
-
-
-def verdict_findings(episodes: Iterable[Episode], t_margin_required_s: float) -> list[Finding]:
-    """The run findings that decide the verdict, one per failing episode.
-
-    Fails (``severity`` ``error``) on a gap episode that tripped a device
-    (``RF-RUN-001``) or stayed unresolved (``RF-RUN-002``), a negative margin
-    (``RF-RUN-003``) and a margin below ``t_margin_required_s``
-    (``RF-RUN-004``). Fault and overload episodes that tripped are the
-    protection working and are reported as ``info`` (``RF-RUN-010``); a fault
-    left unresolved is an error (``RF-RUN-005``): a short that does not trip
-    can overheat wiring.
-    """
-    out: list[Finding] = []
-    for ep in episodes:
-        at = f"{ep.where} at {ep.start_s:.6g} s"
-        who = f" (train {ep.train})" if ep.train else ""
-        acted = (f"dropped out the boosters of {ep.acted}" if ep.outcome == "dropout"
-                 else f"tripped {ep.acted}")
-        if ep.kind == "gap" and ep.outcome in ("tripped", "dropout"):
-            out.append(Finding("error", "RF-RUN-001", ep.where,
-                               f"gap short at {at}{who} {acted} at "
-                               f"{ep.acted_s:.6g} s", "make the reversing controller clear "
-                               "faster than the upstream trip delay"))
-        elif ep.outcome == "unresolved":
-            code, what = ("RF-RUN-002", "gap short") if ep.kind == "gap" else \
-                ("RF-RUN-005", f"{ep.kind} short")
-            if ep.end_s is None:
-                how = "was still flowing at the end of the run"
-            else:
-                how = (f"was swapped {ep.swaps} times without clearing"
-                       + (f", until {ep.acted} tripped at {ep.acted_s:.6g} s"
-                          if ep.acted and ep.acted_s is not None else ""))
-            fix = ("make the reversing section longer than the longest train, or check the "
-                   "polarity on both sides" if ep.kind == "gap" else "")
-            out.append(Finding("error", code, ep.where, f"{what} at {at}{who} {how}", fix))
-        elif ep.outcome in ("tripped", "dropout"):
-            out.append(Finding("info", "RF-RUN-010", ep.where,
-                               f"{ep.kind} at {at} {acted} at {ep.acted_s:.6g} s"))
-        if ep.margin_s is not None:
-            if ep.margin_s < 0:
-                out.append(Finding("error", "RF-RUN-003", ep.where,
-                                   f"negative timing margin {ep.margin_s * 1e3:+.3f} ms at {at}:"
-                                   " an upstream device trips before the swap clears"))
-            elif ep.margin_s < t_margin_required_s:
-                out.append(Finding("error", "RF-RUN-004", ep.where,
-                                   f"timing margin {ep.margin_s * 1e3:+.3f} ms at {at} is below "
-                                   f"the required {t_margin_required_s * 1e3:.3f} ms"))
-    return out

@@ -51,7 +51,8 @@ def test_booster_first_margin_minus_1_5_ms():
     assert ep.acted_s == pytest.approx(0.753, abs=1e-12)
     assert ep.margin_s == pytest.approx(-1.5e-3, abs=1e-9)
     assert res.verdict == "fail"
-    assert {f.code for f in res.findings} >= {"RF-RUN-001", "RF-RUN-003"}
+    # one cause (the reverser too slow, RF-RUN-036); the trip at the gap follows from it
+    assert {f.code for f in res.findings} >= {"RF-RUN-036", "RF-RUN-001"}
     assert res.devices["east"].dark_s == pytest.approx(2.0 - 0.753, abs=1e-9)
 
 
@@ -186,7 +187,7 @@ def test_restart_fails_on_inrush_and_trains_stop_and_go():
     assert len(pulses) == 9                                  # 3 locomotives x 3 retries
     assert pulses[0].data["i_peak_a"] == pytest.approx(16.0 / 10.0)      # V / R
     assert pulses[0].data["tau_s"] == pytest.approx(10.0 * 5e-3)         # R C
-    assert [f.code for f in res.findings].count("RF-RUN-007") == 3
+    assert sum(f.count for f in res.findings if f.code == "RF-RUN-007") == 3   # one line
     # the short at 1 s takes the rails' voltage: s1 runs on its 0.5 s keep-alive,
     # stops at 1.5 s and goes on when the breaker restarts at 1.5005 s
     stops = res.event_log({"stop", "go"}, device="s1")

@@ -21,12 +21,12 @@ RF-LEN-001 (error)
 """
 from __future__ import annotations
 
-from typing import Optional
+from typing import NamedTuple, Optional
 
 from sim.checks.polarity import reverser_of
 from sim.model import Finding, Scenario
 
-__all__ = ["check_train_length", "conducting_span_m"]
+__all__ = ["check_train_length", "conducting_span_m", "long_trains", "LongTrain"]
 
 
 def conducting_span_m(scn: Scenario, consist) -> tuple[float, Optional[tuple], Optional[tuple]]:
@@ -57,9 +57,26 @@ def conducting_span_m(scn: Scenario, consist) -> tuple[float, Optional[tuple], O
     return last[3] - first[3], first, last
 
 
-def check_train_length(scn: Scenario, layout) -> list[Finding]:
-    """Every train against every reversing zone on its route (RF-LEN-001)."""
-    findings: list[Finding] = []
+class LongTrain(NamedTuple):
+    """A train whose conducting span is not shorter than a reversing zone on its route."""
+
+    train: str
+    span_m: float
+    first: tuple          # (vehicle index, vehicle name, axle index, m from the front)
+    last: tuple
+    reverser: str
+    zone: tuple           # the zone's sections, in route order
+    zone_m: float
+
+    @property
+    def short_m(self) -> float:
+        """How much longer the span is than the zone (m)."""
+        return self.span_m - self.zone_m
+
+
+def long_trains(scn: Scenario, layout) -> list[LongTrain]:
+    """Every train against every reversing zone on its route: those it does not fit."""
+    out: list[LongTrain] = []
     secs = scn.track.sections
     for tname, tr in scn.trains.items():
         span_m, first, last = conducting_span_m(scn, tr.consist)
@@ -82,16 +99,25 @@ def check_train_length(scn: Scenario, layout) -> list[Finding]:
                 continue
             seen.add(key)
             zone_m = sum(secs[s].length_m for s in zone)
-            if span_m < zone_m:
-                continue
-            short_mm = (span_m - zone_m) * 1e3
-            name = " + ".join(zone)
-            findings.append(Finding(
-                "error", "RF-LEN-001", scn.where("trains", tname, "consist"),
-                f"train {tname} spans {span_m * 1e3:.0f} mm between its outermost "
-                f"conducting axles ({first[1]} axle {first[2] + 1} at {first[3] * 1e3:.0f} mm "
-                f"to {last[1]} axle {last[2] + 1} at {last[3] * 1e3:.0f} mm from the front), "
-                f"but reversing section {name} (fed by {rv}) is {zone_m * 1e3:.0f} mm long: "
-                f"{short_mm:.0f} mm short, so the train bridges both its ends at once",
-                f"lengthen {name} by more than {short_mm:.0f} mm, or shorten the train"))
+            if span_m >= zone_m:
+                out.append(LongTrain(tname, span_m, first, last, rv, tuple(zone), zone_m))
+    return out
+
+
+def check_train_length(scn: Scenario, layout) -> list[Finding]:
+    """Every train against every reversing zone on its route (RF-LEN-001)."""
+    findings: list[Finding] = []
+    for lt in long_trains(scn, layout):
+        tname, span_m, first, last, rv = lt.train, lt.span_m, lt.first, lt.last, lt.reverser
+        zone_m = lt.zone_m
+        short_mm = lt.short_m * 1e3
+        name = " + ".join(lt.zone)
+        findings.append(Finding(
+            "error", "RF-LEN-001", scn.where("trains", tname, "consist"),
+            f"train {tname} spans {span_m * 1e3:.0f} mm between its outermost "
+            f"conducting axles ({first[1]} axle {first[2] + 1} at {first[3] * 1e3:.0f} mm "
+            f"to {last[1]} axle {last[2] + 1} at {last[3] * 1e3:.0f} mm from the front), "
+            f"but reversing section {name} (fed by {rv}) is {zone_m * 1e3:.0f} mm long: "
+            f"{short_mm:.0f} mm short, so the train bridges both its ends at once",
+            f"lengthen {name} by more than {short_mm:.0f} mm, or shorten the train"))
     return findings

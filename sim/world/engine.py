@@ -179,10 +179,11 @@ MAX_SETTLES_PER_INSTANT = 10_000
 #: oscillation and the guard holds it (RF-RUN-022).
 OSC_CHANGES = 8
 #: Engine events (simpy events processed) a run may take by default: a run that
-#: reaches its budget stops there with RF-RUN-023. The development machine takes
-#: some 15,000 to 50,000 a second, so this is a few minutes of work at most; a
-#: generated hour of 200 sections and 30 trains takes about 4,000.
-EVENT_BUDGET = 2_000_000
+#: reaches its budget stops there with RF-RUN-023 (``railfault run --budget N``
+#: raises it). The development machine takes some 12,000 to 50,000 a second, so
+#: this is under half a minute of work; a generated hour of 200 sections and 30
+#: trains takes about 4,000, a day of it about 100,000.
+EVENT_BUDGET = 250_000
 
 #: Digests of state items kept before the memo is emptied.
 DIGESTS_MAX = 100_000

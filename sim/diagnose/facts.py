@@ -1,0 +1,189 @@
+"""What the diagnosis of one run reads: the run's records and the layout's questions.
+
+:class:`RunFacts` bundles the scenario, its layout, the run's episodes, device
+summaries and event summary, the findings the engine made itself, and the
+static check results, and answers the questions every cause asks (which
+joint is this, which devices feed that section, was a scheduled fault on at
+that instant). It reads the episode fields of the results contract
+defensively (:func:`ep_get`): ``paths_a``, ``devices``, ``tripped``,
+``i2t_a2s`` and ``note`` exist only once the engine reports them.
+"""
+from __future__ import annotations
+
+import re
+from dataclasses import dataclass, field
+from typing import Any, Optional
+
+from sim.model import Finding, Joint, Scenario
+
+__all__ = ["RunFacts", "ep_get", "DARK_MOST"]
+
+#: "Dark for most of the run": a device's output off for at least this share of
+#: the simulated time (the plain meaning of "most").
+DARK_MOST = 0.5
+
+_PROTECTION_KINDS = ("booster", "breaker", "reverser")
+
+
+def ep_get(ep, name: str, default: Any = None) -> Any:
+    """Field ``name`` of an episode, ``default`` when the record has none (or None)."""
+    v = getattr(ep, name, None)
+    return default if v is None else v
+
+
+@dataclass
+class RunFacts:
+    """One run's records, its scenario and layout, and the static check results.
+
+    Attributes
+    ----------
+    episodes : list
+        Every short episode of the run (``sim.trace.Episode``), by start.
+    devices : dict
+        ``{name: DeviceSummary}``.
+    summary :
+        The run's ``EventSummary`` (counts and first/last instants per device and
+        event kind), or ``None``.
+    engine_findings : list[Finding]
+        Findings the engine made itself (not the per-episode symptoms).
+    static : list[Finding]
+        The findings of ``railfault check`` for this scenario.
+    t_end_s : float
+        Where the run stopped.
+    """
+
+    scn: Scenario
+    layout: Any
+    episodes: list
+    devices: dict
+    summary: Any
+    engine_findings: list
+    static: list
+    t_end_s: float
+    _joints: dict = field(default_factory=dict, repr=False)
+    _phases: Optional[dict] = field(default=None, repr=False)
+
+    def __post_init__(self):
+        self._joints = {j.name: j for j in self.scn.track.joints}
+
+    # ---------------------------------------------------------- track
+    def joint(self, where: str) -> Optional[Joint]:
+        """The joint a gap episode's ``where`` names (``None``: not a joint)."""
+        return self._joints.get(where)
+
+    def phases(self) -> dict:
+        """Phase (+1/-1) of every fixed-phase section (:func:`sim.checks.phasing.section_phases`)."""
+        if self._phases is None:
+            from sim.checks.phasing import section_phases
+
+            self._phases = section_phases(self.scn, self.layout)
+        return self._phases
+
+    def out_of_phase(self, joint: Joint) -> Optional[bool]:
+        """Whether the rails meet out of phase at ``joint`` (domain.md: they agree when
+        ``phase(X) == sign * phase(Y)``); ``None`` when a side has no fixed phase (a
+        reversing section, unfed track)."""
+        ph = self.phases()
+        x, y = joint.ends[0].section, joint.ends[1].section
+        if x not in ph or y not in ph:
+            return None
+        return ph[x] != joint.sign * ph[y]
+
+    def reversing_device(self, section: str) -> Optional[str]:
+        """The device that changes the polarity of ``section``: the reversing controller
+        in its chain, else a booster with ``reverse_on_short`` (``None``: fixed)."""
+        chain = self.chain(section)
+        for d in chain:
+            if d in self.scn.reversers:
+                return d
+        for d in chain:
+            if d in self.scn.boosters and self.scn.boosters[d].reverse_on_short:
+                return d
+        return None
+
+    def reversers_at(self, joint: Joint) -> tuple[tuple[str, str], ...]:
+        """``(device, section)`` of each side of ``joint`` whose polarity a reversing
+        device changes (distinct devices, in the joint's order)."""
+        out: dict[str, str] = {}
+        for e in joint.ends:
+            r = self.reversing_device(e.section)
+            if r is not None and r not in out:
+                out[r] = e.section
+        return tuple(out.items())
+
+    def phasing_finding(self, joint: Joint) -> Optional[Finding]:
+        """The static RF-PHS-001 finding that mends ``joint`` (the one naming it, or the
+        only one there is)."""
+        phs = self.static_with("RF-PHS-001")
+        pat = re.compile(r"(?<![\w.~-])" + re.escape(joint.name) + r"(?![\w.~-])")
+        for f in phs:
+            if pat.search(f.message) or pat.search(f.where):
+                return f
+        return phs[0] if len(phs) == 1 else None
+
+    def chain(self, section: str) -> tuple[str, ...]:
+        """The devices feeding ``section``, nearest first (supplies included)."""
+        return self.layout.device_chain(section)
+
+    def protection_chain(self, section: str) -> tuple[str, ...]:
+        """The boosters, breakers and reversers feeding ``section``, nearest first."""
+        return tuple(d for d in self.chain(section)
+                     if self.scn.device_kind(d) in _PROTECTION_KINDS)
+
+    def nearest_device(self, section: str) -> Optional[str]:
+        """The protection device nearest a short in ``section`` (TM 5-811-14 4-1:
+        the one that should clear it)."""
+        chain = self.protection_chain(section)
+        return chain[0] if chain else None
+
+    def sections_of(self, device: str) -> tuple[str, ...]:
+        """Every section ``device`` feeds, directly or through devices below it."""
+        return tuple(s for s in self.scn.track.sections if device in self.chain(s))
+
+    def kind(self, device: str) -> str:
+        """``booster``, ``breaker``, ``reverser``, ``supply`` (or ``device``)."""
+        return self.scn.device_kind(device) or "device"
+
+    def named(self, device: str) -> str:
+        """``breaker yard``: a device with its kind."""
+        return f"{self.kind(device)} {device}"
+
+    # ---------------------------------------------------------- faults
+    def fault_of(self, where: str):
+        """The scenario short whose place is ``where`` (``"section@12 m"``)."""
+        for f in self.scn.faults:
+            if f.kind == "short" and f"{f.section}@{f.at_m:g} m" == where:
+                return f
+        return None
+
+    def fault_on(self, device: str, t0_s: float, t1_s: float):
+        """A scenario short in a section fed through ``device`` that was on at some
+        instant of ``[t0_s, t1_s]`` (``None``: none)."""
+        for f in self.scn.faults:
+            if f.kind != "short" or device not in self.chain(f.section):
+                continue
+            end = None if f.lasts_s is None else f.at_s + f.lasts_s
+            if f.at_s <= t1_s and (end is None or end >= t0_s):
+                return f
+        return None
+
+    # ---------------------------------------------------------- devices
+    def dark_s(self, device: str) -> float:
+        d = self.devices.get(device)
+        return float(getattr(d, "dark_s", 0.0) or 0.0) if d is not None else 0.0
+
+    def dark_most(self, device: str) -> bool:
+        """Whether ``device`` was dark for most of the run (:data:`DARK_MOST`)."""
+        return self.t_end_s > 0 and self.dark_s(device) >= DARK_MOST * self.t_end_s
+
+    def count(self, device: str, event: str) -> int:
+        """How many ``event`` events ``device`` had (0 without a summary)."""
+        return self.summary.count(device, event) if self.summary is not None else 0
+
+    def times(self, device: str, event: str):
+        """``(first_s, last_s)`` of a device's events of one kind, or ``None``."""
+        return self.summary.times(device, event) if self.summary is not None else None
+
+    def static_with(self, code: str) -> list[Finding]:
+        """The static findings with ``code``."""
+        return [f for f in self.static if f.code == code]

@@ -1,0 +1,217 @@
+"""Whole runs of tests/scenarios/diagnose/*.yaml: one finding per cause, with the right fix.
+
+Every check value is derived by hand in the scenario file's header (spans from
+axle positions, V/R for currents, delays for times) and repeated beside the
+assertion. Each of these runs showed the wrong thing before the diagnosis: 23
+identical errors, "make the reversing controller faster" for every gap short,
+a PASS with a district dark for most of the run, or a PASS with nothing at all.
+"""
+from pathlib import Path
+
+import pytest
+
+from sim.scenario import load
+from sim.world import run
+
+HERE = Path(__file__).parent / "scenarios" / "diagnose"
+
+
+def _run(name, **kw):
+    return run(load(HERE / f"{name}.yaml"), **kw)
+
+
+def _causes(res):
+    return [f for f in res.findings if not f.because]
+
+
+def _one(res, code):
+    (f,) = [f for f in res.findings if f.code == code]
+    return f
+
+
+def _no_faster(res, but=None):
+    """No fix tells the user to make a reversing controller faster (except ``but``)."""
+    assert not [f for f in res.findings if "faster" in f.fix and f.code != but]
+
+
+def test_misphased_gap_between_fixed_districts():
+    res = _run("misphased-gap")
+    assert [f.code for f in _causes(res)] == ["RF-RUN-031"]
+    c = _one(res, "RF-RUN-031")
+    # 23 shorts: from 0 s (the car stands on the gap), every 1.002 s (2 ms trip + 1 s retry)
+    assert c.count == 23
+    assert c.first_s == pytest.approx(0.0, abs=1e-9)
+    assert c.last_s == pytest.approx(22 * 1.002, abs=1e-9)             # 22.044 s
+    # the fewest settings to change, as railfault check finds them (RF-PHS-001)
+    assert c.fix == "change 1 setting: booster west-bst: phase inverted -> normal"
+    _no_faster(res)
+    # the 23 trips are one line that follows from it, not 23
+    (g,) = [f for f in res.findings if f.because]
+    assert (g.code, g.count, g.because) == ("RF-RUN-001", 23, "RF-RUN-031 loop1.b~loop2.a")
+    assert "23 shorts of train t1, every one tripped east-bst first" in g.message
+    # through each rail's bridge: 16 V / (0.05 + 0.202 / 2) ohm / 2 = 52.98 A (header)
+    ep = res.episodes[0]
+    paths = getattr(ep, "paths_a", None)
+    assert (max(paths.values()) if paths else ep.peak_a) == pytest.approx(52.98, rel=1e-3)
+    # east-bst dark 22 x 1 s + (30 - 22.046) s = 29.954 s of 30 s: the headline
+    assert res.headline[0].startswith("booster east-bst dark for 29.954 s of 30.000 s (100 %): "
+                                      "gap loop1.b~loop2.a meets out of phase")
+    assert res.verdict == "fail"
+
+
+def test_train_longer_than_its_reversing_section():
+    res = _run("long-lighted-train")
+    c = _one(res, "RF-RUN-030")
+    assert c is _causes(res)[0]
+    # span: coach 2 axle 2 at 200 + 300 + 270 = 770 mm less loco axle 1 at 20 mm = 750 mm
+    assert "train local spans 750 mm" in c.message
+    assert "loco axle 1 at 20 mm to coach axle 2 at 770 mm" in c.message
+    assert "reversing section rev-sec (fed by rev), 600 mm" in c.message
+    # 750 - 600 = 150 mm short
+    assert c.fix.startswith("lengthen rev-sec by more than 150 mm (to more than 750 mm), or "
+                            "bring local's conducting span under 600 mm")
+    # onset: front pickup axle at 2.6 m when the front is at 2.62 m: 1.12 m / 0.5 m/s
+    assert c.first_s == pytest.approx(1.12 / 0.5, abs=1e-9)              # 2.240 s
+    _no_faster(res)
+    assert res.verdict == "fail"
+
+
+def test_supply_at_its_limit_browns_the_boosters_out():
+    res = _run("supply-brownout")
+    c = _one(res, "RF-RUN-033")
+    assert c is _causes(res)[0]
+    assert c.where == "psu"
+    # north drops out at 1.0 s and, after each 0.1 s undervoltage return delay, again:
+    # 1.0, 1.1, ..., 4.9 s = 40 times
+    assert c.count == 40
+    assert c.first_s == pytest.approx(1.0) and c.last_s == pytest.approx(4.9)
+    assert "held its 6.00 A current limit" in c.message
+    assert "north trips only above 10.00 A" in c.message
+    assert c.fix.startswith("give psu a current limit above 10.00 A")
+    assert "fewer boosters on it (2 share its 6.00 A)" in c.fix
+    # check's never-cleared errors about the same supply follow from it
+    static = [f for f in res.findings if f.code in ("RF-FAULT-001", "RF-FAULT-003")]
+    assert static and all(f.because == "RF-RUN-033 psu" for f in static)
+    # north dark 1 s to 5 s: 4.000 s of 5 s
+    assert res.headline[0].startswith("booster north dark for 4.000 s of 5.000 s (80 %): supply "
+                                      "psu at its 6.00 A limit browns out north")
+    _no_faster(res)
+
+
+def test_keep_alive_inrush_locks_a_breaker_out():
+    res = _run("inrush-lockout")
+    c = _one(res, "RF-RUN-034")
+    assert c.severity == "error" and c.count == 3
+    # 4 x 16 V / 8 ohm = 8.00 A; 8 ohm x 2 mF = 16 ms; 16 ms x ln(8 / (4 - 1)) = 15.693 ms
+    assert "charge at 8.00 A in all" in c.message
+    assert "time constant 16.000 ms" in c.message
+    assert "stay above its 4.00 A trip for 15.693 ms" in c.message
+    # dark 300 - 60.0005 - 3 x 0.0005 = 239.998 s of 300 s
+    assert "dark for 239.998 s of 300.000 s (80 %)" in c.message
+    assert c.fix.startswith("raise yard's trip delay above 15.693 ms, or limit the keep-alives' "
+                            "charging current to under 3.00 A in all")
+    # the engine's three inrush trips are one line that follows from it
+    e7 = _one(res, "RF-RUN-007")
+    assert (e7.count, e7.because) == (3, "RF-RUN-034 yard")
+
+
+def test_short_fed_back_through_a_bridging_car():
+    res = _run("backfed-short")
+    c = _one(res, "RF-RUN-035")
+    # 16 V / 1.292 ohm = 12.38 A through the car once east (nearest) tripped at 1.002 s
+    assert "fed back through train parked standing across e1.b~w1.a" in c.message
+    assert "once east, the device nearest it, had tripped at 1.002000 s" in c.message
+    assert "until west tripped at 1.012000 s" in c.message                 # + 10 ms
+    i_a = float(c.message.split(" A through the train")[0].rsplit(" ", 1)[1])
+    assert i_a == pytest.approx(16.0 / 1.292, abs=0.01)
+    assert c.fix.startswith("keep trains from standing across e1.b~w1.a")
+    # west dark 5 - 1.012 = 3.988 s: charged to the back-feed, an error; east's own
+    # darkness is the protection at work (the short is in east's district)
+    assert c.severity == "error"
+    assert res.headline[0].startswith("booster west dark for 3.988 s of 5.000 s (80 %): the short "
+                                      "at e1@2 m is fed back")
+    assert "(the protection at work)" in res.headline[1]
+    _no_faster(res)
+
+
+def test_bonded_joint_out_of_phase_is_one_root_cause():
+    res = _run("bonded-out-of-phase")
+    causes = _causes(res)
+    assert [f.code for f in causes] == ["RF-RUN-032"]
+    c = causes[0]
+    assert c.where == "e1.b~e2.a" and "dead short across district east" in c.message
+    assert c.fix == "change 1 setting: section e2: leads swapped -> normal"
+    # 6 overloads: 0 s, then 1.002 s apart (2 ms trip + 1 s retry), the last at 5.010 s
+    assert c.count == 6 and c.last_s == pytest.approx(5 * 1.002, abs=1e-9)
+    # everything else follows from it: the trips and check's coin-test failures
+    rest = [f for f in res.findings if f is not c]
+    assert rest and all(f.because == "RF-RUN-032 e1.b~e2.a" for f in rest)
+    assert {f.code for f in rest} >= {"RF-RUN-010", "RF-FAULT-001"}
+    # dark 5 x 1 s + 10 - 5.012 s = 9.988 s
+    assert res.headline == ["booster east dark for 9.988 s of 10.000 s (100 %): bonded joint "
+                            "e1.b~e2.a meets out of phase: a dead short across district east"]
+
+
+def test_reverser_too_slow_names_the_figure_to_reach():
+    res = _run("inrush-lockout")
+    c = _one(res, "RF-RUN-036")
+    # rev clears 0.5 + 4 = 4.5 ms after the onset; east trips after 3 ms: -1.5 ms
+    assert "clears a short at its gap 4.500 ms after the onset" in c.message
+    assert "booster east trips 3.000 ms after it" in c.message
+    assert c.fix.startswith("make rev clear within 3.000 ms of the onset, 1.500 ms faster")
+    assert c.first_s == pytest.approx(0.75, abs=1e-9)          # 0.375 m / 0.5 m/s
+    _no_faster(res, but="RF-RUN-036")
+
+
+def test_required_margin_is_in_the_figure():
+    # balloon-relay: loop-ctl would clear 6.1 ms after the onset; main-bst tripped
+    # 3.909 ms after it (40 samples of 0.1 ms, the first 9 us after the onset); with
+    # the required 0.5 ms, loop-ctl must clear within 3.409 ms: 2.691 ms faster
+    res = run(load(Path(__file__).resolve().parents[1] / "scenarios" / "balloon-relay.yaml"))
+    c = _one(res, "RF-RUN-036")
+    assert "make loop-ctl clear within 3.409 ms of the onset, 2.691 ms faster" in c.fix
+
+
+def test_reverser_that_never_senses_the_short():
+    res = _run("reverser-blind")
+    c = _one(res, "RF-RUN-037")
+    # 48.19 A through each rail's bridge (header), under rev's 100 A sense level
+    assert "not above its 100.00 A sense level" in c.message
+    assert c.fix == "lower rev's sense level below 48.19 A"
+    _no_faster(res)
+
+
+def test_two_reversers_fighting():
+    res = run(load(Path(__file__).parent / "scenarios" / "run" / "fight.yaml"))
+    c = _one(res, "RF-RUN-038")
+    # ra senses after 0.5 ms and swaps in 1 ms: rb must wait longer than 1.5 ms
+    assert "give rb a sense delay above 1.500 ms" in c.fix
+    _no_faster(res)
+
+
+def test_short_cleared_by_the_device_above_the_nearest():
+    res = _run("fault-upstream")
+    c = _one(res, "RF-RUN-039")
+    # 16 V / 1.112 ohm = 14.39 A, under yard-cb's 20 A
+    assert "yard-cb trips only above 20.00 A and the short drew 14.39 A" in c.message
+    assert c.fix == "lower yard-cb's trip below 14.39 A"
+    # east dark 6 - 1.004 = 4.996 s of 6 s: not the protection at work, so an error
+    assert c.severity == "error" and res.verdict == "fail"
+    assert res.headline[0].startswith("booster east dark for 4.996 s of 6.000 s (83 %)")
+
+
+def test_club_layout_gets_one_finding_per_cause():
+    # A wye, a balloon, lighted cars and a current-limited supply (club-layout.yaml):
+    # two mistakes, two causes, each with its fix; the wye that works says nothing.
+    res = _run("club-layout")
+    assert [f.code for f in _causes(res)] == ["RF-RUN-030", "RF-RUN-033"]
+    length = _one(res, "RF-RUN-030")
+    # mogul axle 1 at 30 mm to coach 3 axle 4 at 250 + 2 x 260 + 235 = 1005 mm: 975 mm
+    assert "train balloon-local spans 975 mm" in length.message
+    assert length.fix.startswith("lengthen balloon by more than 75 mm (to more than 975 mm)")
+    supply = _one(res, "RF-RUN-033")
+    assert supply.fix.startswith("give psu-main a current limit above 10.00 A")
+    assert all(f.because for f in res.findings if f not in _causes(res))
+    assert not [f for f in res.findings if "wye" in f.where and not f.because]
+    assert res.devices["wye-tail-ctl"].swaps == 1
+    _no_faster(res)
