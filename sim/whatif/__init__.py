@@ -1,0 +1,1 @@
+"""What-if analyses: named cases side by side, and sweeps."""
