@@ -215,8 +215,8 @@ def render_compare(res: CompareResult) -> str:
         if not diffs:
             lines.append(f"{name}: the same episodes as the base")
             continue
-        lines.append(f"{name}: {len(diffs)} episode{'s' if len(diffs) != 1 else ''} differ "
-                     f"from the base")
+        lines.append(f"{name}: {len(diffs)} episode{' differs' if len(diffs) == 1 else 's differ'}"
+                     f" from the base")
         for d in diffs:
             if d["change"] == "added":
                 lines.append(f"  only in {name}: {_short(d['case'])}")

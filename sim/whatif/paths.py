@@ -280,7 +280,14 @@ def apply(scn, path: tuple, value: Any):
         The path names nothing a value can be given to (or an optional record
         that this file does not give, such as a thermal replica left out).
     """
-    return _apply(scn, _TABLE, tuple(path), value, ())
+    path = tuple(path)
+    if len(path) == 4 and path[:2] == ("track", "sections") and path[3] == "length":
+        sec = scn.track.sections.get(path[2])
+        if sec is not None and sec.feed is not None and \
+                ("track", "sections", path[2], "feeders") not in scn.locations:
+            raise PathError(f"'{dotted(path)}' also places the section's default feeder (at "
+                            f"mid-length); to vary it, give the section's feeders in the file")
+    return _apply(scn, _TABLE, path, value, ())
 
 
 def apply_all(scn, values: Mapping[tuple, Any]):
@@ -319,15 +326,14 @@ class Reuse:
 
 
 def _timing(path: tuple) -> bool:
-    """Whether ``path`` changes neither the network nor the layout graph."""
+    """Whether ``path`` leaves the network (the circuit's base) as it is."""
     top = path[0]
     if top in _TIMING_TOP:
         return True
     if top in _TIMING_LEAVES:
         return len(path) >= 3 and path[2] in _TIMING_LEAVES[top]
-    if top == "trains":
-        return len(path) >= 3 and (path[2] in ("speed", "depart")
-                                   or (path[2] == "route" and path[-1] == "reverse_after"))
+    if top == "trains":         # trains are loads and bridges: changes of the circuit
+        return True
     if top == "track":
         return len(path) == 2 and path[1] in _TRACK_TIMING
     return False

@@ -63,9 +63,8 @@ class SweepResult:
         return render_summary(self.summary)
 
 
-def _input_error(scn, key: Optional[str], message: str) -> ScenarioError:
-    path = ("vary", key) if key else ("samples",)
-    loc = scn.locations.get(path)
+def _input_error(scn, path: tuple, message: str) -> ScenarioError:
+    loc = scn.locations.get(path) or scn.locations.get(path[:1])
     return ScenarioError([Problem(scn.path, ".".join(path), message,
                                   loc[0] if loc else None, loc[1] if loc else None)])
 
@@ -84,7 +83,7 @@ def _check_design(scn, design: Design) -> None:
             try:
                 apply(scn, a.path, v)
             except PathError as exc:
-                problems.extend(_input_error(scn, a.key, f"vary: {exc}").problems)
+                problems.extend(_input_error(scn, ("vary", a.key), f"vary: {exc}").problems)
                 break
     if problems:
         raise ScenarioError(problems)
@@ -149,12 +148,12 @@ def sweep(scn, samples: Optional[int] = None, jobs: int = 1, store: Optional[str
 
     t0 = time.perf_counter()
     if not scn.vary:
-        raise _input_error(scn, None, "nothing to sweep: this file has no vary block (see "
+        raise _input_error(scn, ("vary",), "nothing to sweep: this file has no vary block (see "
                                       "scenarios/README.md, Sweeps)")
     n_draws = scn.samples if samples is None else int(samples)
     d = Design(scn.vary, n_draws, scn.seed, design)
     if d.rand and n_draws <= 0:
-        raise _input_error(scn, None, f"the vary block draws at random "
+        raise _input_error(scn, ("samples",), f"the vary block draws at random "
                                       f"({', '.join(a.key for a in d.rand)}): give the number "
                                       f"of samples (samples: N in the file, or --samples N)")
     _check_design(scn, d)
@@ -175,6 +174,8 @@ def sweep(scn, samples: Optional[int] = None, jobs: int = 1, store: Optional[str
         runner = Runner(scn, d.paths())
         ex = make_executor(runner, jobs=workers, cluster=cluster, text=text)
         ran = 0
+        if progress:
+            progress(0, len(todo))
         try:
             for recs in ex.map(_batches(d, todo, size)):
                 if st:
