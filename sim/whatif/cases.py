@@ -43,10 +43,12 @@ def _join(key: str, rest: tuple) -> str:
 class _CaseDocument(Document):
     """The document of one case: locations moved into the case, problems relocated."""
 
-    def __init__(self, base: Document, name: str, targets: list[tuple[tuple, str]]):
+    def __init__(self, base: Document, name: str, targets: list[tuple[tuple, str]],
+                 created: dict):
         super().__init__(base.file)
         self.name = name
         self.targets = targets
+        self.created = created          # a mapping the case made -> the case's key
         locs = dict(base.locations)
         for target, _key in targets:
             for p in [p for p in locs if p[:len(target)] == target]:
@@ -67,18 +69,28 @@ class _CaseDocument(Document):
                 shown = f"cases.{self.name}.{_join(key, path[len(target):])}"
                 self.problems.append(Problem(self.file, shown, message, line, col))
                 return
+        if path in self.created:
+            key = self.created[path]
+            loc = self.locations.get(("cases", self.name, key))
+            line, col = loc if loc else (line, col)
+            self.problems.append(Problem(self.file, f"cases.{self.name}.{key}",
+                                         f"{message} (in '{dotted(path)}', which this case "
+                                         f"adds)", line, col))
+            return
         self.problems.append(Problem(self.file, dotted(path),
                                      f"in case '{self.name}': {message}", line, col))
 
 
-def _put(data: dict, path: tuple, value: Any) -> Optional[str]:
-    """Set ``value`` at ``path`` in ``data`` (making missing mappings); an error text or None."""
+def _put(data: dict, path: tuple, value: Any, created: list) -> Optional[str]:
+    """Set ``value`` at ``path`` in ``data``, making missing mappings (their paths go to
+    ``created``); an error text or ``None``."""
     cur: Any = data
     for i, seg in enumerate(path[:-1]):
         if isinstance(cur, dict):
             nxt = cur.get(seg)
             if nxt is None:
                 nxt = cur[seg] = {}
+                created.append(path[:i + 1])
         elif isinstance(cur, list) and isinstance(seg, int) and seg < len(cur):
             nxt = cur[seg]
         else:
@@ -127,6 +139,7 @@ def build_cases(doc: Document, data: dict,
         bad = Document(doc.file, locations=doc.locations)
         merged = copy.deepcopy(base)
         targets: list[tuple[tuple, str]] = []
+        created: dict = {}
         for key, value in spec.items():
             at = ("cases", name, key)
             path = parse_key_path(key)
@@ -147,13 +160,15 @@ def build_cases(doc: Document, data: dict,
             except PathError as exc:
                 bad.problem(at, str(exc))
                 continue
-            err = _put(merged, path, copy.deepcopy(value))
+            made: list = []
+            err = _put(merged, path, copy.deepcopy(value), made)
             if err:
                 bad.problem(at, err)
                 continue
             targets.append((path, key))
+            created.update((p, key) for p in made if p not in created)
         problems.extend(bad.problems)
-        sub = _CaseDocument(doc, name, targets)
+        sub = _CaseDocument(doc, name, targets, created)
         try:
             scn = pipeline(merged, sub)
         except ScenarioError:

@@ -28,7 +28,6 @@ import math
 from typing import Optional, Sequence
 
 import numpy as np
-from scipy.stats import rankdata
 
 __all__ = ["Z95", "wilson", "spearman", "prcc", "quantiles"]
 
@@ -61,6 +60,13 @@ def _pearson(a: np.ndarray, b: np.ndarray) -> Optional[float]:
     if den == 0.0 or not math.isfinite(den):
         return None
     return float(np.clip((a @ b) / den, -1.0, 1.0))
+
+
+def rankdata(x) -> np.ndarray:
+    """Ranks from 1, ties given their mean rank (``scipy.stats.rankdata``, imported on use)."""
+    from scipy.stats import rankdata as ranks
+
+    return ranks(x)
 
 
 def spearman(x: Sequence[float], y: Sequence[float]) -> Optional[float]:
