@@ -51,10 +51,12 @@ def cmd_sweep(args) -> int:
         text = json.dumps(res.as_dict(), indent=2)
     else:
         text = res.text() + "\n\n" + CAUTION
+    emit(text, args.output)
+    if not args.json:
+        sys.stdout.flush()
         rate = res.ran / res.wall_s if res.wall_s > 0 else 0.0
         sys.stderr.write(f"railfault: {res.ran} samples run in {res.wall_s:.1f} s "
                          f"({rate:.0f} samples/s)\n")
-    emit(text, args.output)
     return EXIT_PASS if res.passed else EXIT_FAIL
 
 

@@ -1,0 +1,78 @@
+"""Benchmarks of sweeps (run: pytest tests/bench/bench_whatif.py -m bench -s).
+
+Each benchmark PRINTS ratios against a reference measured in the same process; none
+is a timed pass/fail test:
+
+- per-sample cost against one plain run of the same file (``sim.world.run`` on the
+  loaded scenario, which builds its layout and circuit): a sample re-uses the
+  layout and a rewound circuit with its factorization (sim.whatif.runner);
+- samples per second with ``jobs=1`` and ``jobs=2``, and their ratio (2 cores: at
+  most 2; the pool's start and the parent's work bound it below that);
+- the time of 10,000 samples of a small reversing-section layout with ``jobs=2``.
+
+Layouts: tests/scenarios/whatif/race-uniform.yaml (one gap, one train: the small
+layout) and scenarios/balloon-relay.yaml (a balloon loop, 60 s).
+"""
+from __future__ import annotations
+
+import json
+import time
+
+import pytest
+
+from sim.scenario import load
+from sim.whatif import sweep
+from sim.whatif.runner import Runner
+from sim.whatif.samplers import Design
+from sim.world import run
+
+pytestmark = pytest.mark.bench
+
+SMALL = "tests/scenarios/whatif/race-uniform.yaml"
+LOOP = "scenarios/balloon-relay.yaml"
+
+
+def _per_run_s(fn, n: int) -> float:
+    fn()                                        # warm caches and imports
+    t0 = time.perf_counter()
+    for _ in range(n):
+        fn()
+    return (time.perf_counter() - t0) / n
+
+
+@pytest.mark.parametrize("file,n", [(SMALL, 200), (LOOP, 20)])
+def test_per_sample_cost_against_a_plain_run(file, n):
+    scn = load(file)
+    d = Design(scn.vary, max(n, scn.samples), scn.seed)
+    runner = Runner(scn, d.paths())
+    k = iter(range(10 ** 9))
+    plain = _per_run_s(lambda: run(scn), n)
+    sample = _per_run_s(lambda: runner.record(next(k) % d.n, d.values(next(k) % d.n)), n)
+    print(f"\n{file}: plain run {plain * 1e3:.2f} ms, one sample {sample * 1e3:.2f} ms, "
+          f"ratio {sample / plain:.2f} (re-use: {runner.reuse})")
+
+
+@pytest.mark.parametrize("file,samples", [(SMALL, 1000), (LOOP, 60)])
+def test_samples_per_second_jobs_1_and_2(file, samples):
+    scn = load(file)
+    rates = {}
+    summaries = {}
+    for jobs in (1, 2):
+        res = sweep(scn, samples=samples, jobs=jobs)
+        rates[jobs] = samples / res.wall_s
+        summaries[jobs] = json.dumps(res.summary)
+    assert summaries[1] == summaries[2]
+    print(f"\n{file}: {samples} samples: jobs 1 {rates[1]:.0f}/s, jobs 2 {rates[2]:.0f}/s, "
+          f"ratio {rates[2] / rates[1]:.2f}")
+
+
+def test_ten_thousand_samples_of_a_small_layout():
+    scn = load(SMALL)
+    t0 = time.perf_counter()
+    res = sweep(scn, samples=10_000, jobs=2)
+    wall = time.perf_counter() - t0
+    plain = _per_run_s(lambda: run(scn), 50)
+    print(f"\n10,000 samples of {SMALL} with jobs 2: {wall:.1f} s "
+          f"({10_000 / wall:.0f} samples/s; {wall / (10_000 * plain):.2f} x the time of "
+          f"10,000 plain runs in one process)")
+    assert res.summary["samples"] == 10_000
