@@ -79,14 +79,16 @@ def _new_value(kind, raw):
 @pytest.mark.parametrize("file", SCENARIOS)
 def test_apply_matches_the_loader_for_every_quantity(file):
     text = open(file, encoding="utf-8").read()
+    if "\ncases:" in text:         # the probe is a case of its own: drop the file's cases
+        data = yaml.safe_load(text)
+        data.pop("cases")
+        text = yaml.safe_dump(data, sort_keys=False)
     base = loads(text, file)
     tried = refused = 0
     for path, kind, raw in _numeric_paths(text):
         value, written = _new_value(kind, raw)
         case_text = text + f"\ncases:\n  probe: {{{json.dumps(_dotted(path))}: " \
                            f"{json.dumps(written)}}}\n"
-        if "\ncases:" in text:
-            continue
         try:
             by_loader = loads(case_text, file).cases["probe"]
         except Exception:       # the changed value breaks a rule between keys: not a probe
