@@ -78,20 +78,27 @@ class Axis:
     low_open: bool = False
     high_open: bool = False
     integer: bool = False
+    #: the smallest non-zero magnitude the key accepts when it accepts 0 too (a value
+    #: between 0 and it is moved up to it); ``None``: no such gap
+    floor: Optional[float] = None
 
     @classmethod
     def of(cls, key: str, spec) -> "Axis":
         kind = kind_at(tuple(spec["path"]))
-        low = high = None
+        low = high = floor = None
         low_open = high_open = integer = False
         if isinstance(kind, S.Quantity):
-            if kind.low in ("positive", "nonneg"):
+            rng = getattr(kind, "range", None)
+            if rng is not None and hasattr(rng, "lo"):       # a plausible range of the trade
+                low, high = (0.0 if rng.zero else rng.lo), rng.hi
+                floor = rng.lo if rng.zero else None
+            elif getattr(kind, "low", None) in ("positive", "nonneg"):
                 low, low_open = 0.0, kind.low == "positive"
         elif isinstance(kind, S.Number):
             low, high = kind.minimum, kind.maximum
             low_open, high_open, integer = kind.exclusive_min, kind.exclusive_max, kind.integer
         return cls(key, tuple(spec["path"]), spec["sampler"], tuple(spec["values"]),
-                   spec["unit"], low, high, low_open, high_open, integer)
+                   spec["unit"], low, high, low_open, high_open, integer, floor)
 
     @property
     def random(self) -> bool:
@@ -135,6 +142,8 @@ class Axis:
             x = math.nextafter(self.low, math.inf) if self.low_open else self.low
         if self.high is not None and (x > self.high or (self.high_open and x >= self.high)):
             x = math.nextafter(self.high, -math.inf) if self.high_open else self.high
+        if self.floor is not None and 0.0 < x < self.floor:
+            x = self.floor
         return float(x)
 
 
