@@ -7,7 +7,9 @@ is a timed pass/fail test:
   loaded scenario, which builds its layout and circuit): a sample re-uses the
   layout and a rewound circuit with its factorization (sim.whatif.runner);
 - samples per second with ``jobs=1`` and ``jobs=2``, and their ratio (2 cores: at
-  most 2; the pool's start and the parent's work bound it below that);
+  most 2; the pool's start and the parent's work bound it below that), with the CPU
+  time per sample of all processes (this one and the pool's, from ``getrusage``): the
+  work the pool adds, which the wall-clock ratio hides when other work shares the cores;
 - the time of 10,000 samples of a small reversing-section layout with ``jobs=2``.
 
 Layouts: tests/scenarios/whatif/race-uniform.yaml (one gap, one train: the small
@@ -16,6 +18,8 @@ layout) and scenarios/balloon-relay.yaml (a balloon loop, 60 s).
 from __future__ import annotations
 
 import json
+import os
+import resource
 import time
 
 import pytest
@@ -30,6 +34,13 @@ pytestmark = pytest.mark.bench
 
 SMALL = "tests/scenarios/whatif/race-uniform.yaml"
 LOOP = "scenarios/balloon-relay.yaml"
+
+
+def _cpu_s() -> float:
+    """CPU seconds of this process and of its finished children (the pool's workers)."""
+    me = resource.getrusage(resource.RUSAGE_SELF)
+    kids = resource.getrusage(resource.RUSAGE_CHILDREN)
+    return me.ru_utime + me.ru_stime + kids.ru_utime + kids.ru_stime
 
 
 def _per_run_s(fn, n: int) -> float:
@@ -56,14 +67,19 @@ def test_per_sample_cost_against_a_plain_run(file, n):
 def test_samples_per_second_jobs_1_and_2(file, samples):
     scn = load(file)
     rates = {}
+    cpu = {}
     summaries = {}
     for jobs in (1, 2):
+        c0 = _cpu_s()
         res = sweep(scn, samples=samples, jobs=jobs)
+        cpu[jobs] = (_cpu_s() - c0) / samples
         rates[jobs] = samples / res.wall_s
         summaries[jobs] = json.dumps(res.summary)
     assert summaries[1] == summaries[2]
     print(f"\n{file}: {samples} samples: jobs 1 {rates[1]:.0f}/s, jobs 2 {rates[2]:.0f}/s, "
-          f"ratio {rates[2] / rates[1]:.2f}")
+          f"ratio {rates[2] / rates[1]:.2f}; CPU per sample (all processes) jobs 1 "
+          f"{cpu[1] * 1e3:.2f} ms, jobs 2 {cpu[2] * 1e3:.2f} ms (ratio {cpu[2] / cpu[1]:.2f}); "
+          f"load average now {os.getloadavg()[0]:.1f} on {os.cpu_count()} cores")
 
 
 def test_ten_thousand_samples_of_a_small_layout():
