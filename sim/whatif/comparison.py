@@ -15,6 +15,7 @@ own, :mod:`sim.whatif.cases`) in the event engine and lines up:
 """
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, field
 from typing import Optional
 
@@ -139,11 +140,9 @@ class CompareResult:
                 for n, r in self.results.items() if n != "base"}
 
     def as_dict(self) -> dict:
-        """The ``railfault-compare/1`` JSON object."""
-        from sim.trace import _clean
-
+        """The ``railfault-compare/1`` JSON object (no infinities: ``null`` instead)."""
         scn = self.scenario
-        return _clean({
+        return _finite({
             "format": COMPARE_FORMAT,
             "scenario": {"title": scn.title, "path": scn.path, "sha256": scn.sha256},
             "cases": self.names,
@@ -157,6 +156,17 @@ class CompareResult:
 
     def text(self) -> str:
         return render_compare(self)
+
+
+def _finite(value):
+    """``value`` with every non-finite float (an infinity, NaN) as ``None``, for JSON."""
+    if isinstance(value, float):
+        return value if math.isfinite(value) else None
+    if isinstance(value, dict):
+        return {k: _finite(v) for k, v in value.items()}
+    if isinstance(value, (list, tuple)):
+        return [_finite(v) for v in value]
+    return value
 
 
 def compare(scn, until_s: Optional[float] = None) -> CompareResult:
