@@ -20,6 +20,7 @@ over it). The steps:
 from __future__ import annotations
 
 import json
+import os
 import time
 from dataclasses import dataclass, field
 from typing import Callable, Optional
@@ -158,11 +159,19 @@ def sweep(scn, samples: Optional[int] = None, jobs: int = 1, store: Optional[str
                                       f"of samples (samples: N in the file, or --samples N)")
     _check_design(scn, d)
     if text is None and (store or jobs > 1 or cluster):
+        if not os.path.isfile(scn.path):
+            raise ValueError(f"sweep() needs the scenario's text (text=...) to run it on "
+                             f"workers or keep it in a store: {scn.path!r} is not a file")
         with open(scn.path, "rb") as fh:
             raw = fh.read()
         text = raw.decode("utf-8-sig")
         if hashlib.sha256(raw).hexdigest() != scn.sha256:
             raise StoreError(scn.path, "the file changed while the sweep was starting")
+    elif text is not None and scn.sha256 not in (
+            hashlib.sha256(text.encode("utf-8")).hexdigest(),
+            hashlib.sha256(("\ufeff" + text).encode("utf-8")).hexdigest()):
+        raise ValueError("sweep(): text is not the text the scenario was loaded from "
+                         "(its SHA-256 differs)")
     settings = d.settings()
     st = Store.open(store, text, scn.sha256, scn.path, settings, resume) if store else None
     records: list[dict] = []
