@@ -416,6 +416,9 @@ class Scenario:
     vary: Mapping[str, object] = field(default_factory=lambda: EMPTY)
     samples: int = 0
     t_margin_required_s: float = 0.0
+    #: ``cases:`` named what-if variants, each a whole validated scenario
+    #: (:mod:`sim.whatif.cases`); empty in a case itself.
+    cases: Mapping[str, "Scenario"] = field(default_factory=lambda: EMPTY)
     path: str = "<memory>"
     sha256: str = ""
     locations: Mapping[tuple, tuple[int, int]] = field(default_factory=lambda: EMPTY)

@@ -154,6 +154,17 @@ def _load_text(doc: Document, text: str, sha: str) -> M.Scenario:
         doc.problem(("format",), f"unsupported format {S.describe(fmt)}: this version of "
                                  f"railfault reads `format: {FORMAT}` only")
         raise ScenarioError(doc.problems)
+    scn = _pipeline(doc, data, sha)
+    if data.get("cases"):
+        from dataclasses import replace
+        from sim.whatif.cases import build_cases
+
+        scn = replace(scn, cases=build_cases(doc, data, lambda d, sub: _pipeline(sub, d, sha)))
+    return scn
+
+
+def _pipeline(doc: Document, data: dict, sha: str) -> M.Scenario:
+    """Convert, check and build ``data`` (problems go to ``doc``; raises if any)."""
     cx = S.Context(lambda path, message: doc.problem(path, message))
     conv = S.TOP.convert(cx, data, ())
     checker = _Checker(doc, cx, conv)
@@ -553,25 +564,34 @@ class _Checker:
             return out("grid", vals) if len(self.doc.problems) == n_before else None
         if not isinstance(spec, dict) or len(spec) != 1:
             self.problem(path, f"expected a sampler: {{uniform: [low, high]}}, {{normal: "
-                               f"[mean, sd]}}, {{choice: [...]}} or a list of values; got "
+                               f"[mean, sd]}}, {{triangular: [low, mode, high]}}, "
+                               f"{{choice: [...]}} or a list of values; got "
                                f"{S.describe(spec)}")
             return None
         (name, args), = spec.items()
         sub = path + (name,)
-        if name not in ("uniform", "normal", "choice"):
-            self.problem(sub, f"unknown sampler '{name}' (uniform, normal, choice)"
-                              f"{S.suggest(name, ('uniform', 'normal', 'choice'))}")
+        names = ("uniform", "normal", "triangular", "choice")
+        if name not in names:
+            self.problem(sub, f"unknown sampler '{name}' ({', '.join(names)})"
+                              f"{S.suggest(name, names)}")
             return None
-        if not isinstance(args, list) or (name != "choice" and len(args) != 2) or not args:
-            want = "a list of values" if name == "choice" else "a list of two values"
+        n_args = {"uniform": 2, "normal": 2, "triangular": 3}.get(name)
+        if not isinstance(args, list) or not args or (n_args and len(args) != n_args):
+            want = "a list of values" if n_args is None else \
+                ("a list of two values" if n_args == 2 else "a list of three values "
+                                                             "[low, mode, high]")
             self.problem(sub, f"{name} takes {want}, got {S.describe(args)}")
             return None
         if name == "choice":
             vals = [kind.convert(self.cx, v, sub + (i,)) for i, v in enumerate(args)]
-        elif name == "uniform":
+        elif name in ("uniform", "triangular"):
             vals = [kind.convert(self.cx, v, sub + (i,)) for i, v in enumerate(args)]
-            if len(self.doc.problems) == n_before and not vals[0] < vals[1]:
-                self.problem(sub, "uniform [low, high] needs low below high")
+            if len(self.doc.problems) == n_before and not vals[0] < vals[-1]:
+                self.problem(sub, f"{name} [low, ..., high] needs low below high")
+            elif len(self.doc.problems) == n_before and name == "triangular" \
+                    and not vals[0] <= vals[1] <= vals[2]:
+                self.problem(sub, "triangular [low, mode, high] needs the mode between low "
+                                  "and high")
         else:
             vals = [free.convert(self.cx, args[0], sub + (0,)),
                     spread.convert(self.cx, args[1], sub + (1,))]

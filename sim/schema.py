@@ -626,6 +626,10 @@ class VaryMap(Kind):
              "additionalProperties": False},
             {"type": "object", "properties": {"normal": pair}, "required": ["normal"],
              "additionalProperties": False},
+            {"type": "object", "properties": {"triangular": {
+                "type": "array", "minItems": 3, "maxItems": 3,
+                "items": {"type": ["string", "number"]}}}, "required": ["triangular"],
+             "additionalProperties": False},
             {"type": "object", "properties": {"choice": {"type": "array", "minItems": 1,
                                                          "items": {"type": ["string", "number"]}}},
              "required": ["choice"], "additionalProperties": False},
@@ -634,6 +638,34 @@ class VaryMap(Kind):
         return {"type": "object",
                 "propertyNames": {"pattern": r"^[A-Za-z0-9_-]+(\.[A-Za-z0-9_-]+|\[\d+\])+$"},
                 "additionalProperties": sampler}
+
+
+class CaseMap(Kind):
+    """``cases``: names to mappings of key paths to values; :mod:`sim.whatif.cases`
+    resolves each key path and converts each value like the key it replaces."""
+
+    doc = "a mapping of case names to {key path: value}"
+
+    def convert(self, cx, value, path):
+        if not isinstance(value, dict):
+            cx.problem(path, f"expected a mapping of case names to mappings of key paths "
+                             f"to values, got {describe(value)}")
+            return INVALID
+        for name, spec in value.items():
+            if not isinstance(name, str) or not NAME_RE.match(name):
+                cx.problem(path + (name,), f"'{name}' is not usable as a case name: use "
+                                           f"letters, digits, '-' and '_'")
+            elif not isinstance(spec, dict) or not spec:
+                cx.problem(path + (name,), f"a case maps key paths to new values, e.g. "
+                                           f"{{reversers.x.swap_time: 8 ms}}; got "
+                                           f"{describe(spec)}")
+        return dict(value)
+
+    def json(self) -> dict:
+        return {"type": "object", "propertyNames": {"pattern": NAME_PATTERN},
+                "additionalProperties": {
+                    "type": "object", "minProperties": 1,
+                    "propertyNames": {"pattern": r"^[A-Za-z0-9_-]+(\.[A-Za-z0-9_-]+|\[\d+\])*$"}}}
 
 
 # ------------------------------------------------------------ record checks
@@ -1106,6 +1138,7 @@ TOP = Record("scenario", {
                    "track-voltage range; absent: HO's range, with a note"),
     "vary": Field(VaryMap(), {}, "what a sweep samples"),
     "samples": Field(Number(integer=True, minimum=0, maximum=1_000_000, why="a million runs is more than a sweep can use"), 0, "number of sweep samples"),
+    "cases": Field(CaseMap(), {}, "named what-if variants (railfault compare)"),
 })
 
 

@@ -299,13 +299,26 @@ class Circuit:
                 [(d.o_l, d.a, d.g_lead_s), (d.o_r, d.b, d.g_lead_s)],
                 [(d.o_l, d.b, d.g_lead_s), (d.o_r, d.a, d.g_lead_s)]))
         self._dev_delta: dict = {}
-        # state
-        self._closed = np.ones(len(devs), dtype=bool)
-        self._swapped = np.zeros(len(devs), dtype=bool)
+        self._sup_limit = np.array([s.i_limit_a for s in sups], dtype=float)
+        self._seg_cache: dict = {}
+        self._node_items: dict = {}
+        self._floating_cache: dict = {}
+        self._dev_ol = None
+        self._block_sections = None
+        self._start_state()
+        self._orig = _Base(self._key(), np.ones(len(devs), dtype=np.int64), frozenset(),
+                           frozenset(), {}, None)
+        self._base = self._orig
+
+    def _start_state(self) -> None:
+        """The state of a new circuit: every device closed and straight, supplies on at
+        their EMF, no bridge, load, short or open feeder, no folded base."""
+        sups = [self.topo.supplies[k] for k in self._sup_names]
+        self._closed = np.ones(len(self._dev_names), dtype=bool)
+        self._swapped = np.zeros(len(self._dev_names), dtype=bool)
         self._sup_on = np.ones(len(sups), dtype=bool)
         self._sup_v = np.array([s.v_emf_v for s in sups], dtype=float)
         self._sup_cc = np.full(len(sups), math.inf)
-        self._sup_limit = np.array([s.i_limit_a for s in sups], dtype=float)
         self.bridges: dict = _Tracked()
         self.loads: dict = _Tracked()
         self.shorts: dict = _Tracked()
@@ -319,18 +332,23 @@ class Circuit:
         self._strong: set = set()      # additions above G_FOLD_MAX_S: never folded
         self._add_arrays = None
         self.feeders_open: set = set()
-        self._seg_cache: dict = {}
-        self._node_items: dict = {}
-        self._floating_cache: dict = {}
-        self._dev_ol = None
-        self._block_sections = None
-        self._orig = _Base(self._key(), np.ones(len(devs), dtype=np.int64), frozenset(),
-                           frozenset(), {}, None)
-        self._base = self._orig
         self._bases: OrderedDict = OrderedDict()
         self._kcl_terms = 0.0
         self.rebases = 0
         self.parts_factored = 0
+
+    def rewind(self) -> None:
+        """Back to the state of a new circuit, keeping what depends on the network only.
+
+        The original base and its factorization (computed at the first update),
+        the part structures and the cached element matrices are kept; the state,
+        the folded bases and the counters start again. A rewound circuit solves
+        every state exactly as a new one does (a sweep runs many samples that
+        differ in timing settings only on one circuit: ``sim.whatif``).
+        """
+        self._start_state()
+        self._base = self._orig
+        self.findings = list(self.topo.findings)
 
     def _sw(self, elem, u, v):
         self._sw_u.append(int(u))

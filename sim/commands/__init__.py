@@ -5,8 +5,9 @@ the ``railfault`` command and sets ``func``; the function returns the exit
 status. Adding a sub-command is a module here and one line in :data:`COMMANDS`.
 """
 from sim.commands import check, faultmap, run, schema
+from sim.commands import compare, sweep
 
 #: Every sub-command, in the order ``railfault --help`` lists them.
-COMMANDS = (check, faultmap, run, schema)
+COMMANDS = (check, faultmap, run, compare, sweep, schema)
 
 __all__ = ["COMMANDS"]
