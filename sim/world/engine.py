@@ -163,7 +163,7 @@ class World:
 
     def __init__(self, scn: Scenario, until_s: Optional[float] = None,
                  keep_events: bool = False, layout=None, circuit=None, devices=None,
-                 plans=None):
+                 plans=None, traces=None):
         from sim.layout import build_layout
         from sim.circuit import build_circuit
 
@@ -215,6 +215,9 @@ class World:
                                       device_rated_a=rated)
         self.findings: list[Finding] = []
         self._init_trains(plans)
+        self.traces = traces                  # opt-in recorder (sim.world.traces)
+        if traces is not None:
+            traces.attach(self)
 
     # ----------------------------------------------------------- devices
     def _init_devices(self, devices, rng) -> None:
@@ -623,6 +626,8 @@ class World:
         sol = self._solve_supplies(t) if self._supply_rows else self._solve()
         prev = self._sol
         self._sol = sol
+        if self.traces is not None:
+            self.traces.solution(t, sol, self.paths)
         if prev is None:
             for f in getattr(sol, "findings", ()) or ():
                 if isinstance(f, Finding):
@@ -781,6 +786,8 @@ class World:
         return (on, i_lim)
 
     def _dark(self, name: str, t: float, conducting: bool) -> None:
+        if self.traces is not None:
+            self.traces.output(name, t, conducting)
         since = self._dark_since[name]
         if not conducting and since is None:
             self._dark_since[name] = t
@@ -815,6 +822,8 @@ class World:
         t_end = self.t_end_s
         self.record(Event(t_end, "world", "end"))
         episodes = self.tracker.finish(t_end)
+        if self.traces is not None:
+            self.traces.finish(t_end)
         devices: dict[str, DeviceSummary] = {}
         for name, drv in self.drivers.items():
             m = drv.dev
@@ -850,7 +859,8 @@ class World:
                    "circuit_s": self.t_circuit_s})
 
 
-def run(scn: Scenario, until_s: Optional[float] = None, keep_events: bool = False) -> Result:
+def run(scn: Scenario, until_s: Optional[float] = None, keep_events: bool = False,
+        traces=None) -> Result:
     """Play a scenario and return its result.
 
     Parameters
@@ -862,6 +872,8 @@ def run(scn: Scenario, until_s: Optional[float] = None, keep_events: bool = Fals
     keep_events : bool
         Keep every event in ``Result.events`` (``railfault run --events``);
         without it events are only summarised (bounded memory).
+    traces : sim.world.traces.TraceRecorder, optional
+        Records exact current traces around the episodes, bounded (for reports).
 
     Returns
     -------
@@ -874,4 +886,4 @@ def run(scn: Scenario, until_s: Optional[float] = None, keep_events: bool = Fals
     >>> res.verdict                                        # doctest: +SKIP
     'pass'
     """
-    return World(scn, until_s=until_s, keep_events=keep_events).run()
+    return World(scn, until_s=until_s, keep_events=keep_events, traces=traces).run()
