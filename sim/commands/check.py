@@ -9,13 +9,18 @@ from sim.textfmt import table as _table
 
 def check_result(path: str, step_m: float = 0.5) -> dict:
     """Load ``path`` and run every static and circuit check; the contract's JSON object."""
+    from sim.scenario import load
+
+    return check_result_of(load(path), step_m=step_m)
+
+
+def check_result_of(scn, step_m: float = 0.5, layout=None) -> dict:
+    """:func:`check_result` of a loaded scenario (``layout``: its layout, if built)."""
     from sim.checks import run_checks
     from sim.circuit import check_findings
     from sim.layout import build_layout
-    from sim.scenario import load
 
-    scn = load(path)
-    layout = build_layout(scn)
+    layout = layout if layout is not None else build_layout(scn)
     report = run_checks(scn, layout)
     circuit_findings, rows = check_findings(scn, layout, step_m=step_m)
     findings = list(report.findings) + list(circuit_findings)
