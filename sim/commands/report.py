@@ -28,7 +28,7 @@ def default_output(path: str) -> str:
 
 def cmd_report(args) -> int:
     from sim.report import build, write
-    from sim.report.write import OutputError, check_target
+    from sim.report.output import OutputError, check_target
     from sim.scenario import load
 
     if args.sweep is not None:

@@ -15,9 +15,9 @@ pairs), :mod:`~sim.report.sheets` (settings, wiring, gaps, assumptions),
 :mod:`~sim.report.findings` (verdict, headline, findings by cause),
 :mod:`~sim.report.runtables` (the other tables), ``plot_*`` (the drawings),
 :mod:`~sim.report.style` (palette, deterministic SVG), :mod:`~sim.report.page`
-(HTML and Markdown from Jinja2 templates), :mod:`~sim.report.write` (the folder).
+(HTML and Markdown from Jinja2 templates), :mod:`~sim.report.output` (the folder).
 """
 from sim.report.builder import DETAIL, Report, build
-from sim.report.write import write
+from sim.report.output import write
 
 __all__ = ["DETAIL", "Report", "build", "write"]

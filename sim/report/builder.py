@@ -1,7 +1,7 @@
 """Build the page model of a report: check, fault map and run, then every table and figure.
 
 :func:`build` is the library entry point (``sim.report.build``); the command
-``railfault report`` only writes what it returns (:mod:`sim.report.write`).
+``railfault report`` only writes what it returns (:mod:`sim.report.output`).
 Nothing is simulated twice: one check (static and circuit), one fault map, one
 run with the bounded trace recorder attached (:mod:`sim.world.traces`).
 """

@@ -11,7 +11,7 @@ import math
 from sim.report.figures import render
 from sim.report.sequence import Sequence
 from sim.report.style import GREY, colour, figure, linestyle
-from sim.report.tables import Column, Table, a_text, instant_text, ms_text, t_text
+from sim.report.tables import Column, Table, a_text, dur_text, instant_text, ms_text, t_text
 
 SPAN_STYLE = {  # kind: (face, hatch, edge, words)
     "short": ("#444444", None, "#000000", "short current flows"),
@@ -203,7 +203,7 @@ def draw_dark(lanes, t_end_s: float):
                 spans = merged
             ax.broken_barh([(a, max(b - a, t_end_s * 2e-4)) for a, b in spans], (yy - 0.3, 0.6),
                            facecolors="#000000", edgecolors="#000000", hatch="xxxx", lw=0.4)
-            ax.annotate(f"dark {t_text(ln.total_s)}" + (f" ({len(ln.spans)} times)"
+            ax.annotate(f"dark {dur_text(ln.total_s)}" + (f" ({len(ln.spans)} times)"
                                                         if ln.spans else ""),
                         (t_end_s, yy), xytext=(-3, 8), textcoords="offset points",
                         ha="right", fontsize=6.5)
@@ -218,7 +218,7 @@ def draw_dark(lanes, t_end_s: float):
         desc = ("Time line of the run with one lane per power district; black hatched bars "
                 "where the district had no power (its device or one above it tripped, was "
                 "off or dropped out): " + "; ".join(
-                    f"{ln.district} dark {t_text(ln.total_s)} in {len(ln.spans)} spans"
+                    f"{ln.district} dark {dur_text(ln.total_s)} in {len(ln.spans)} spans"
                     for ln in lanes) + ".")
         return render(fig, "dark", title, desc, dark_table(lanes), model=lanes)
 

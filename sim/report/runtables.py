@@ -4,8 +4,8 @@ from __future__ import annotations
 
 import math
 
-from sim.report.tables import (Column, Table, a2s_text, a_text, instant_text, m_text,
-                               ms_text, plain, t_text)
+from sim.report.tables import (Column, Table, a2s_text, a_text, dur_text, instant_text,
+                               m_text, ms_text, plain, t_text)
 
 OUTCOME_WORDS = {"clean": "clean (ended by itself)", "swapped": "swapped (a swap cleared it)",
                  "tripped": "TRIPPED", "dropout": "DROPOUT (supply at its limit)",
@@ -68,7 +68,7 @@ def devices_table(result) -> Table:
     return Table("devices", "What each device did", [
         Column("device", "device"), Column("kind", "kind"),
         Column("trips", "trips", plain, True), Column("swaps", "swaps", plain, True),
-        Column("restarts", "restarts", plain, True), Column("dark_s", "dark", t_text, True),
+        Column("restarts", "restarts", plain, True), Column("dark_s", "dark", dur_text, True),
         Column("peak_a", "peak current", a_text, True),
         Column("max_thermal", "highest thermal level",
                lambda v: f"{v * 100:.1f} % of rated heat" if v is not None else "-", True)],
@@ -169,9 +169,9 @@ def dark_table(lanes) -> Table:
              "longest_s": max((b - a for a, b in ln.spans), default=None)} for ln in lanes]
     return Table("dark", "Dark time per district", [
         Column("district", "district (feeding device)"), Column("chain", "devices above"),
-        Column("dark_s", "dark in total", t_text, True), Column("spans", "times", plain, True),
+        Column("dark_s", "dark in total", dur_text, True), Column("spans", "times", plain, True),
         Column("first_s", "first at", instant_text, True),
-        Column("longest_s", "longest", t_text, True)], rows)
+        Column("longest_s", "longest", dur_text, True)], rows)
 
 
 def findings_table(groups) -> Table:

@@ -33,6 +33,20 @@ def t_text(t_s: Optional[float]) -> str:
     return f"{t_s:.6f} s"
 
 
+def dur_text(t_s: Optional[float]) -> str:
+    """A duration to three significant decimals: µs, ms or s."""
+    if not _finite(t_s):
+        return "-"
+    a = abs(t_s)
+    if a == 0.0:
+        return "0 s"
+    if a < 1e-3:
+        return f"{t_s * 1e6:.1f} µs"
+    if a < 1.0:
+        return f"{t_s * 1e3:.3f} ms"
+    return f"{t_s:.3f} s"
+
+
 def instant_text(t_s: Optional[float]) -> str:
     """An instant of the run, to the microsecond, in s."""
     return f"{t_s:.6f} s" if _finite(t_s) else "-"

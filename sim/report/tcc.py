@@ -53,7 +53,7 @@ T_FLOOR_S = 1e-5
 #: Times above this are off the chart, s.
 T_CEIL_S = 1e4
 #: Points per decade of current in the sampled curves.
-PER_DECADE = 48
+PER_DECADE = 64
 #: Charts drawn at most; the other paths are listed under the last one.
 MAX_CHARTS = 12
 

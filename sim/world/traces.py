@@ -23,8 +23,10 @@ A window opens ``pre_s`` before a ``short`` event (an episode opening) and
 closes ``post_s`` after the matching ``cleared`` event; a protective action
 (``trip``, ``thermal_trip``, ``off``, ``dropout``) outside any open window opens
 a window of its own from ``pre_s`` before it to ``post_s`` after it. The
-solves of the last :data:`RING` instants are kept (references, no copies), so a
-window opened at ``t`` starts with the exact currents from ``t - pre_s`` on.
+solves and events of the last :data:`RING` instants are kept (references, no
+copies), so a window opened at ``t`` starts with the exact currents from
+``t - pre_s`` on, and with the events recorded just before it opened (a
+supply's limit acts within the solve that opens an episode).
 Inside a window the recorder keeps, per device, supply and short, the value at
 every instant it changed (the last value of an instant where several solves
 happened), and every event.
@@ -149,6 +151,7 @@ class TraceRecorder:
         self.max_events = int(max_events)
         self.max_spans = int(max_spans)
         self._ring: deque = deque(maxlen=RING)
+        self._recent: deque = deque(maxlen=RING)   # the last events, for a window's start
         self._active: list[TraceWindow] = []
         self._by_place: dict[str, TraceWindow] = {}
         self._kept: list = []            # heap of (severity, -t0, serial, window)
@@ -218,10 +221,14 @@ class TraceRecorder:
                 w._until_s = t + self.post_s
         for w in self._active:
             if w.t0_s <= t <= w._until_s:
-                if len(w.events) < self.max_events:
-                    w.events.append(ev)
-                else:
-                    w.truncated = True
+                self._keep_event(w, ev)
+        self._recent.append(ev)
+
+    def _keep_event(self, w: TraceWindow, ev) -> None:
+        if len(w.events) < self.max_events:
+            w.events.append(ev)
+        else:
+            w.truncated = True
 
     def output(self, name: str, t_s: float, conducting: bool) -> None:
         """A device's or supply's output conducts (or not) from ``t_s`` on."""
@@ -288,6 +295,9 @@ class TraceRecorder:
             w.t0_s = ring[start][0]
         for entry in ring[start:]:
             self._take(w, entry, max(entry[0], w.t0_s))
+        for ev in self._recent:       # events of the same instants, recorded before it opened
+            if ev.t_s >= w.t0_s:
+                self._keep_event(w, ev)
         self._active.append(w)
         return w
 
