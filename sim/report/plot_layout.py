@@ -82,7 +82,11 @@ def draw_layout(scn, layout, result, key: str = "layout"):
         ax = fig.add_axes((0.01, 0.02, 0.70, 0.96))
         ax.set_axis_off()
         ax.set_aspect("equal", adjustable="datalim")
-        # joints (parallel joints between two sections bow apart)
+        # joints (parallel joints between two sections bow apart); gap bars scale with
+        # the drawing's typical joint length
+        lengths = [np.hypot(*(pos[u] - pos[v])) for u, v in layout.graph.edges() if u != v]
+        bar = min(0.035, 0.3 * float(np.median(lengths))) if lengths else 0.035
+        big = n > LABEL_MAX
         mids: dict = {}
         count: dict = {}
         for u, v, data in layout.graph.edges(data=True):
@@ -107,11 +111,12 @@ def draw_layout(scn, layout, result, key: str = "layout"):
                 seg = b - mid if bow else d
                 nrm2 = np.array([-seg[1], seg[0]]) / (np.hypot(*seg) or 1.0)
                 along = seg / (np.hypot(*seg) or 1.0)
-                offs = (0.0,) if j.gaps == "one" else (-0.012, 0.012)
+                offs = (0.0,) if j.gaps == "one" else (-bar / 3, bar / 3)
                 for o in offs:
                     c = mid + along * o
-                    p0, p1 = c - nrm2 * 0.035, c + nrm2 * 0.035
-                    ax.plot([p0[0], p1[0]], [p0[1], p1[1]], color="#000000", lw=1.8, zorder=3)
+                    p0, p1 = c - nrm2 * bar, c + nrm2 * bar
+                    ax.plot([p0[0], p1[0]], [p0[1], p1[1]], color="#000000",
+                            lw=0.8 if big else 1.8, zorder=3)
         # sections
         for s, p in pos.items():
             d = layout.district(s)
@@ -157,11 +162,12 @@ def draw_layout(scn, layout, result, key: str = "layout"):
             if up and up[0] in dpos:
                 q = dpos[up[0]]
                 ax.plot([p[0], q[0]], [p[1], q[1]], color=LIGHT, lw=0.9, ls="-.", zorder=2)
-            ax.scatter([p[0]], [p[1]], marker=DEVICE_MARKERS.get(kind, "o"), s=110,
+            ax.scatter([p[0]], [p[1]], marker=DEVICE_MARKERS.get(kind, "o"), s=50 if big else 110,
                        c="#FFFFFF" if kind == "supply" else col.get(name, "#FFFFFF"),
                        edgecolors="#000000", linewidths=1.0, zorder=5)
-            ax.annotate(f"{name} ({kind})", p, xytext=(8, 2), textcoords="offset points",
-                        fontsize=7, zorder=6, bbox=LABEL_BOX)
+            ax.annotate(name if big else f"{name} ({kind})", p, xytext=(6, 2),
+                        textcoords="offset points", fontsize=6 if big else 7, zorder=6,
+                        bbox=LABEL_BOX)
         # episodes by place and outcome
         places: dict = {}
         for ep in result.episodes:
@@ -174,11 +180,13 @@ def draw_layout(scn, layout, result, key: str = "layout"):
                          "first_s": eps[0].start_s})
             if p is None:
                 continue
-            ax.scatter([p[0]], [p[1] + 0.07], marker=m, s=90, c=c, edgecolors="#000000",
-                       linewidths=0.8, zorder=7)
-            ax.annotate(f"{word}" + (f" x{len(eps)}" if len(eps) > 1 else ""),
-                        (p[0], p[1] + 0.07), xytext=(7, 4), textcoords="offset points",
-                        fontsize=7, fontweight="bold", zorder=8)
+            lift = 0.02 if big else 0.07
+            ax.scatter([p[0]], [p[1] + lift], marker=m, s=30 if big else 90, c=c,
+                       edgecolors="#000000", linewidths=0.6, zorder=7)
+            if not big:     # a large layout: the shape and the legend say it, words crowd
+                ax.annotate(f"{word}" + (f" x{len(eps)}" if len(eps) > 1 else ""),
+                            (p[0], p[1] + lift), xytext=(7, 4), textcoords="offset points",
+                            fontsize=7, fontweight="bold", zorder=8)
         # legend
         from matplotlib.lines import Line2D
         from matplotlib.patches import Patch

@@ -187,8 +187,9 @@ def draw_dark(lanes, t_end_s: float):
 
     n = len(lanes)
     max_bars = 2000
-    with figure(9.0, 1.4 + 0.32 * max(n, 1)) as fig:
-        ax = fig.add_axes((0.2, 0.22 if n < 6 else 0.12, 0.76, 0.7))
+    height = 1.2 + 0.3 * max(n, 1)
+    with figure(9.0, height) as fig:
+        ax = fig.add_axes((0.2, 0.65 / height, 0.6, (height - 1.05) / height))
         for k, ln in enumerate(lanes):
             yy = n - 1 - k
             spans = ln.spans
@@ -205,8 +206,8 @@ def draw_dark(lanes, t_end_s: float):
                            facecolors="#000000", edgecolors="#000000", hatch="xxxx", lw=0.4)
             ax.annotate(f"dark {dur_text(ln.total_s)}" + (f" ({len(ln.spans)} times)"
                                                         if ln.spans else ""),
-                        (t_end_s, yy), xytext=(-3, 8), textcoords="offset points",
-                        ha="right", fontsize=6.5)
+                        (1.0, yy), xycoords=("axes fraction", "data"), xytext=(6, 0),
+                        textcoords="offset points", ha="left", va="center", fontsize=7)
         ax.set_yticks(range(n))
         ax.set_yticklabels([f"district of {ln.district}" for ln in reversed(lanes)])
         ax.set_xlim(0, t_end_s)

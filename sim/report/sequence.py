@@ -232,10 +232,17 @@ def union(spans) -> list[tuple[float, float]]:
     return [(a, b) for a, b in out]
 
 
+def natural(name: str) -> tuple:
+    """Sort key that puts ``b2`` before ``b10``."""
+    import re
+
+    return tuple((0, int(p)) if p.isdigit() else (1, p) for p in re.split(r"(\d+)", name))
+
+
 def dark_lanes(scn, layout, recorder) -> list[DarkLane]:
     """Dark spans of every district (its feeding device and everything above it)."""
     lanes = []
-    for dev in sorted({layout.district(s) for s in scn.track.sections} - {None}):
+    for dev in sorted({layout.district(s) for s in scn.track.sections} - {None}, key=natural):
         chain = (dev,) + scn.upstream(dev)
         spans = union(sp for d in chain for sp in recorder.dark.get(d, ()))
         dropped = sum(recorder.dark_dropped.get(d, 0) for d in chain)
