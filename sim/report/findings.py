@@ -8,13 +8,20 @@ result carries one; otherwise one line per error finding, the run's first.
 
 Findings are grouped by cause: a finding that names its root cause
 (``because``: ``"CODE where"``) is listed under that finding, and findings of
-one code at one place are shown once with their count.
+one code at one place are shown once with their count. Within a severity the
+run's findings come first, then the checks' by family, causes before
+consequences (:data:`FAMILIES`: the track's polarity and gaps before the
+settings, the settings before what the circuit shows).
 """
 from __future__ import annotations
 
 from dataclasses import dataclass, field
 
 SEVERITIES = ("error", "warning", "info")
+#: Families of check codes, causes before consequences: the track's polarity, gaps and
+#: wiring first, then the settings, then what the circuit shows (which often follows).
+FAMILIES = ("RF-RUN", "RF-POL", "RF-COV", "RF-GAP", "RF-PHS", "RF-WIRE", "RF-LEN", "RF-COORD",
+            "RF-CKT", "RF-FAULT", "RF-WIN", "RF-VOLT")
 SYMBOL = {"pass": "✓", "fail": "✗"}
 WORD = {"pass": "PASS", "fail": "FAIL"}
 
@@ -67,8 +74,13 @@ def group_findings(check_findings, run_findings) -> list[Group]:
             g.followers.append(f)
     order = {s: k for k, s in enumerate(SEVERITIES)}
     src = {"run": 0, "check": 1}
+    def family(code: str) -> int:
+        fam = code.rsplit("-", 1)[0]
+        return FAMILIES.index(fam) if fam in FAMILIES else len(FAMILIES)
+
     return sorted(groups, key=lambda g: (order.get(g.severity, 9), src[g.source],
-                                         g.finding["code"], g.finding["where"]))
+                                         family(g.finding["code"]), g.finding["code"],
+                                         g.finding["where"]))
 
 
 def verdict_of(check: dict, result) -> str:
