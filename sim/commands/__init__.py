@@ -4,10 +4,9 @@ Each module has ``register(sub)``, which adds its parser to the sub-parsers of
 the ``railfault`` command and sets ``func``; the function returns the exit
 status. Adding a sub-command is a module here and one line in :data:`COMMANDS`.
 """
-from sim.commands import check, faultmap, run, schema
-from sim.commands import compare, sweep
+from sim.commands import check, compare, faultmap, report, run, schema, sweep
 
 #: Every sub-command, in the order ``railfault --help`` lists them.
-COMMANDS = (check, faultmap, run, compare, sweep, schema)
+COMMANDS = (check, faultmap, run, report, compare, sweep, schema)
 
 __all__ = ["COMMANDS"]

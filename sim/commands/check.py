@@ -18,6 +18,13 @@ def check_result(path: str, step_m: float = 0.5) -> dict:
     return api.check(api.load(path), step_m=step_m).as_dict()
 
 
+def check_result_of(scn, step_m: float = 0.5) -> dict:
+    """:func:`check_result` of a loaded scenario."""
+    from sim import api
+
+    return api.check(scn, step_m=step_m).as_dict()
+
+
 def _wiring_table(rows: list) -> str:
     """The wiring sheet: per section and feeder, the device, where, and terminal -> rail."""
     from sim.checks.wiring import TERMINALS

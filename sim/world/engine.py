@@ -218,7 +218,7 @@ class World:
 
     def __init__(self, scn: Scenario, until_s: Optional[float] = None,
                  keep_events: bool = False, layout=None, circuit=None, devices=None,
-                 plans=None, event_budget: int = EVENT_BUDGET):
+                 plans=None, event_budget: int = EVENT_BUDGET, traces=None):
         from sim.layout import build_layout
         from sim.circuit import build_circuit
 
@@ -279,6 +279,9 @@ class World:
                                       supply_of=supply_of, order=self.order)
         self.findings: list[Finding] = []
         self._init_trains(plans)
+        self.traces = traces                  # opt-in recorder (sim.world.traces)
+        if traces is not None:
+            traces.attach(self)
 
     # ----------------------------------------------------------- devices
     def _init_devices(self, devices, rng) -> None:
@@ -825,6 +828,8 @@ class World:
         sol = self._solve_supplies(t) if self._supply_rows else self._solve()
         prev = self._sol
         self._sol = sol
+        if self.traces is not None:
+            self.traces.solution(t, sol, self.paths)
         if prev is None:
             for f in getattr(sol, "findings", ()) or ():
                 if isinstance(f, Finding):
@@ -995,6 +1000,8 @@ class World:
         return (on, i_lim)
 
     def _dark(self, name: str, t: float, conducting: bool) -> None:
+        if self.traces is not None:
+            self.traces.output(name, t, conducting)
         since = self._dark_since[name]
         if not conducting and since is None:
             self._dark_since[name] = t
@@ -1066,6 +1073,8 @@ class World:
         t_end = self.t_end_s
         self.record(Event(t_end, "world", "end"))
         episodes = self.tracker.finish(t_end)
+        if self.traces is not None:
+            self.traces.finish(t_end)
         devices: dict[str, DeviceSummary] = {}
         for name, drv in self.drivers.items():
             m = drv.dev
@@ -1130,7 +1139,7 @@ def _describe_key(key) -> str:
 
 
 def run(scn: Scenario, until_s: Optional[float] = None, keep_events: bool = False,
-        event_budget: int = EVENT_BUDGET) -> Result:
+        event_budget: int = EVENT_BUDGET, traces=None) -> Result:
     """Play a scenario and return its result.
 
     Parameters
@@ -1145,6 +1154,8 @@ def run(scn: Scenario, until_s: Optional[float] = None, keep_events: bool = Fals
     event_budget : int
         The most engine events the run may take; a run that reaches it stops
         there with a finding (RF-RUN-023). Stated in ``Result.stats``.
+    traces : sim.world.traces.TraceRecorder, optional
+        Records exact current traces around the episodes, bounded (for reports).
 
     Returns
     -------
@@ -1158,4 +1169,4 @@ def run(scn: Scenario, until_s: Optional[float] = None, keep_events: bool = Fals
     'pass'
     """
     return World(scn, until_s=until_s, keep_events=keep_events,
-                 event_budget=event_budget).run()
+                 event_budget=event_budget, traces=traces).run()
