@@ -829,7 +829,7 @@ class World:
         prev = self._sol
         self._sol = sol
         if self.traces is not None:
-            self.traces.solution(t, sol, self.paths)
+            self.traces.solution(t, sol, self._short_currents(sol)[0] if self.paths else None)
         if prev is None:
             for f in getattr(sol, "findings", ()) or ():
                 if isinstance(f, Finding):

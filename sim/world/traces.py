@@ -176,17 +176,16 @@ class TraceRecorder:
 
         world.record = record
 
-    def solution(self, t_s: float, sol, paths) -> None:
-        """A solve at ``t_s``: ``sol`` (a circuit Solution), ``paths`` the short
-        paths that exist (``{key: ShortPath}``)."""
+    def solution(self, t_s: float, sol, currents) -> None:
+        """A solve at ``t_s``: ``sol`` (a circuit Solution), ``currents`` the current of
+        every short path that exists (``{ShortPath: A}``, the engine's own figures: a
+        bridge's over every rail it joins), or ``None`` when there is none."""
         shorts = None
-        if paths:
+        if currents:
             shorts = {}
-            bi, si = sol.bridge_i_a, sol.short_i_a
-            for k, p in paths.items():
-                i = (si if p.kind == "fault" else bi).get(k, 0.0)
+            for p, i in currents.items():
                 g = _group_key(p)
-                shorts[g] = shorts.get(g, 0.0) + abs(i)
+                shorts[g] = shorts.get(g, 0.0) + i
         entry = (t_s, sol.device_i_a, sol.supply_i_a, shorts)
         self._ring.append(entry)
         if self._active:
