@@ -45,20 +45,25 @@ def _tables(rep) -> list:
     return list(rep.tables) + [rep.episode_paths]
 
 
-def test_every_number_on_the_page_has_its_unit(page):
-    rep, _, _ = page
+def _numbers_with_units(tables) -> int:
+    """Assert that every finite float a page table shows has its unit in its cell; how
+    many were checked."""
     seen = 0
-    for t in _tables(rep):
-        cols = t.page_columns
+    for t in tables:
         for raw, text in zip(t.rows, t.text_rows()):
-            for c, cell in zip(cols, text):
+            for c, cell in zip(t.page_columns, text):
                 v = raw.get(c.key)
                 if c.key in UNITLESS or isinstance(v, bool) or not isinstance(v, float) \
                         or not math.isfinite(v):
                     continue
                 seen += 1
                 assert WITH_UNIT.search(cell), (t.key, c.key, cell)
-    assert seen > 50
+    return seen
+
+
+def test_every_number_on_the_page_has_its_unit(page):
+    rep, _, _ = page
+    assert _numbers_with_units(_tables(rep)) > 50
 
 
 def test_each_error_or_warning_is_one_cause_with_its_fix(page):
@@ -129,19 +134,9 @@ def test_the_sweep_section_has_its_units_too(tmp_path):
     store = tmp_path / "s.sqlite"
     sweep(scn, samples=8, store=str(store))
     rep = build(scn, png=False, detail=0, sweep=read_store(str(store), scn))
-    seen = 0
     tables = list(rep.sweep.tables) + [rep.sweep.races, rep.sweep.margins] + \
         [f.data for f in rep.sweep.figures]
-    for t in tables:
-        for raw, text in zip(t.rows, t.text_rows()):
-            for c, cell in zip(t.page_columns, text):
-                v = raw.get(c.key)
-                if c.key in UNITLESS or isinstance(v, bool) or not isinstance(v, float) \
-                        or not math.isfinite(v):
-                    continue
-                seen += 1
-                assert WITH_UNIT.search(cell), (t.key, c.key, cell)
-    assert seen > 20
+    assert _numbers_with_units(tables) > 20
     # the worst sample's settings are written with their units
     worst = [ln for ln in rep.sweep.margins.text_rows() if ln[-1] != "-"]
     assert worst and all(re.search(r"swap_time = \d+\.\d{3} ms", w[-1]) for w in worst)

@@ -85,6 +85,18 @@ def times_text(f: Finding) -> str:
     return f"at {t_text(f.first_s)}"
 
 
+def _ended(outcome: str, acted: str, n: int) -> str:
+    """How shorts ended, in words (``acted``: the device that acted first)."""
+    by = f" by {acted}" if acted else ""
+    if outcome == "dropout":
+        return "ended in a dropout" + (f" (supply {acted} at its limit)" if acted else "")
+    if outcome == "clean":
+        return "ended by " + ("itself" if n == 1 else "themselves")
+    if outcome == "unresolved":
+        return "UNRESOLVED"
+    return outcome + by
+
+
 def share_text(p: float) -> str:
     """A share as a percentage, one decimal: ``3.9 %``; ``under 0.1 %`` when it rounds
     to nothing."""
@@ -109,9 +121,8 @@ def key_figures(result, pairs, lanes) -> list[str]:
         out.append(line + ".")
     others = [e for e in result.episodes if e.kind != "gap"]
     if others:
-        acted = Counter((e.kind, e.outcome, e.acted or "-") for e in others)
-        out.append("; ".join(f"{plural(n, k + ' short')} {o}"
-                             + (f" by {a}" if a != "-" else "")
+        acted = Counter((e.kind, e.outcome, e.acted or "") for e in others)
+        out.append("; ".join(f"{plural(n, k + ' short')} {_ended(o, a, n)}"
                              for (k, o, a), n in sorted(acted.items())) + ".")
     if not result.episodes:
         out.append("No short episode in the run.")
