@@ -39,13 +39,6 @@ def test_a_failing_layout_exits_1(tmp_path, capsys):
     assert "Verdict: FAIL" in capsys.readouterr().out
 
 
-def test_sweep_is_refused_plainly_and_nothing_is_written(tmp_path, capsys):
-    out = tmp_path / "x"
-    assert main(["report", str(DEMO), "-o", str(out), "--sweep", "store.sqlite"]) == 2
-    assert "--sweep is not available" in capsys.readouterr().err
-    assert not out.exists()
-
-
 def test_unusable_output_or_input_exits_2_and_writes_nothing(tmp_path, capsys):
     mine = tmp_path / "mine"
     mine.mkdir()

@@ -96,6 +96,12 @@ def test_prcc_constant_input_and_too_few_samples():
     out = prcc(xs, np.arange(10.0))
     assert out[1] is None and out[0] == pytest.approx(1.0)
     assert prcc(np.ones((3, 2)), [1, 2, 3]) == [None, None]
+    # a constant output (a margin every sample shares): no correlation at all, as
+    # spearman says; without the guard the regression's rounding gave a number
+    rng = np.random.default_rng(3)
+    xs = rng.random((40, 2))
+    assert prcc(xs, np.full(40, 0.004481)) == [None, None]
+    assert spearman(xs[:, 0], np.full(40, 0.004481)) is None
 
 
 def test_quantiles_are_numpys_linear_ones():

@@ -265,8 +265,8 @@ def race_advice(scn: Scenario, layout, r: str) -> tuple[list[Advice], dict]:
 
 def nested_advice(scn: Scenario, k: str, u: str) -> list[Advice]:
     """Settings that each make nested device ``k`` act before upstream ``u`` on a hard
-    short in ``k``'s district, whatever the sample phases (:func:`_nested_times`)."""
-    tk = _nested_times(scn, k, u)
+    short in ``k``'s district, whatever the sample phases (:func:`nested_times`)."""
+    tk = nested_times(scn, k, u)
     out: list[Advice] = []
     dev_k = scn.device(k)
     p_k, p_u = dev_k.sense.period_s, scn.device(u).sense.period_s
@@ -291,7 +291,7 @@ def nested_advice(scn: Scenario, k: str, u: str) -> list[Advice]:
     return out
 
 
-def _nested_times(scn: Scenario, k: str, u: str) -> dict:
+def nested_times(scn: Scenario, k: str, u: str) -> dict:
     """The hard-short timeline of nested ``k`` under upstream ``u`` (times after onset).
 
     A breaker trips at ``[e_k, l_k]``; the current stops until its restart
@@ -456,7 +456,7 @@ def _nested(scn: Scenario) -> list[Finding]:
             if u not in scn.boosters and u not in scn.breakers:
                 continue
             kind = scn.device_kind(u)
-            tl = _nested_times(scn, k, u)
+            tl = nested_times(scn, k, u)
             iu = scn.device(u).trip.i_above_a
             if own == "reverser":
                 when = (f" on a short its swap does not clear (a fault in its section): it "

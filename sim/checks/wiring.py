@@ -31,11 +31,14 @@ from sim.checks.phasing import section_phases, solve_phases
 from sim.checks.polarity import reversing_sections
 from sim.model import Scenario
 
-__all__ = ["section_leads", "wiring_rows", "TERMINALS"]
+__all__ = ["section_leads", "wiring_rows", "TERMINALS", "RAILS"]
 
 #: The device's output terminals, in the order ``leads: normal`` puts them on the
 #: left and right rails.
 TERMINALS = ("out 1", "out 2")
+#: The rails the two :data:`TERMINALS` go to, for each value of ``leads`` (rails as
+#: seen from the section's ``a`` end towards its ``b`` end).
+RAILS = {"normal": ("left rail", "right rail"), "swapped": ("right rail", "left rail")}
 
 
 def section_leads(scn: Scenario, layout) -> dict[str, tuple[int, bool]]:

@@ -27,14 +27,13 @@ def check_result_of(scn, step_m: float = 0.5) -> dict:
 
 def _wiring_table(rows: list) -> str:
     """The wiring sheet: per section and feeder, the device, where, and terminal -> rail."""
-    from sim.checks.wiring import TERMINALS
+    from sim.checks.wiring import RAILS, TERMINALS
 
     out = []
     count: dict = {}
     for r in rows:
         n = count[r["section"]] = count.get(r["section"], 0) + 1
-        rails = ("left rail", "right rail") if r["leads"] == "normal" else \
-            ("right rail", "left rail")
+        rails = RAILS[r["leads"]]
         out.append([r["section"], str(n), r["device"], f"{r['at_m']:.2f} m from a",
                     f"{TERMINALS[0]} -> {rails[0]}", f"{TERMINALS[1]} -> {rails[1]}",
                     r["leads"] + (" (chosen)" if r["chosen"] else " (as built)")])

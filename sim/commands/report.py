@@ -3,21 +3,18 @@
 Checks, maps and runs the scenario (:func:`sim.report.build`) and writes one
 folder (:func:`sim.report.write`, complete or absent): ``index.html`` (one
 self-contained page), ``report.md``, the JSON results, a CSV per table and a
-PNG per figure. Exit 0 when check and run pass, 1 when either fails, 2 when
-the input or the output folder cannot be used.
+PNG per figure. With ``--sweep STORE`` the page has a sweep section, from a
+store that ``railfault sweep FILE --store STORE`` made from this very file
+(:func:`sim.report.sweep.read_store`; another file's store is refused). Exit 0
+when check and run pass, 1 when either fails, 2 when the input, the store or
+the output folder cannot be used (nothing is written then).
 """
 from __future__ import annotations
 
 import os
 import sys
 
-from sim.commands.common import CAUTION, EXIT_FAIL, EXIT_INPUT, EXIT_PASS, quantity_arg
-
-#: Why ``--sweep`` is refused in this version (the sweep store is not part of it yet).
-SWEEP_UNAVAILABLE = (
-    "railfault report: --sweep is not available in this version: the sweep store it reads "
-    "(written by 'railfault sweep') is not part of railfault yet. Run the report without "
-    "--sweep.\n")
+from sim.commands.common import CAUTION, EXIT_FAIL, EXIT_PASS, quantity_arg
 
 
 def default_output(path: str) -> str:
@@ -27,33 +24,30 @@ def default_output(path: str) -> str:
 
 
 def cmd_report(args) -> int:
+    from sim.errors import OutputError
     from sim.report import build, write
-    from sim.report.output import OutputError, check_target
+    from sim.report.output import check_target
+    from sim.report.sweep import read_store
     from sim.scenario import load
 
-    if args.sweep is not None:
-        sys.stderr.write(SWEEP_UNAVAILABLE)
-        return EXIT_INPUT
     out = args.output or default_output(args.file)
-    try:
-        check_target(out)
-        if os.path.abspath(out) == os.path.abspath(os.path.dirname(os.path.abspath(args.file))):
-            raise OutputError(f"{out}: is the folder of the scenario itself")
-    except OutputError as exc:
-        sys.stderr.write(f"railfault report: {exc}\n")
-        return EXIT_INPUT
+    check_target(out)
+    if os.path.abspath(out) == os.path.abspath(os.path.dirname(os.path.abspath(args.file))):
+        raise OutputError(f"{out}: is the folder of the scenario itself; give a folder of "
+                          f"its own for the report")
     scn = load(args.file)
-    rep = build(scn, step_m=args.step, detail=args.detail)
-    try:
-        write(rep, out)
-    except OutputError as exc:
-        sys.stderr.write(f"railfault report: {exc}\n")
-        return EXIT_INPUT
+    sweep = read_store(args.sweep, scn) if args.sweep is not None else None
+    rep = build(scn, step_m=args.step, detail=args.detail, sweep=sweep)
+    write(rep, out)
     word = "PASS" if rep.verdict == "pass" else "FAIL"
     lines = [f"railfault report: {rep.title}",
              f"Verdict: {word} (checks {rep.check_verdict.upper()}, simulation "
              f"{rep.run_verdict.upper()})"]
     lines += [f"  {h}" for h in rep.headline[:5]]
+    lines += [f"  railfault check: {f.severity} {f.code} {f.where}"
+              for f in rep.check_headline[:5]]
+    if rep.sweep is not None:
+        lines.append(f"Sweep: {rep.sweep.lines[0]}")
     lines += [f"Written: {os.path.join(out, 'index.html')} (with report.md, "
               f"{len(rep.tables)} CSV tables and {len(rep.figures)} figures as PNG)", "",
               CAUTION]
@@ -84,5 +78,6 @@ def register(sub) -> None:
     r.add_argument("--detail", type=_count, default=6,
                    help="episodes drawn in detail, the worst first (default 6)")
     r.add_argument("--sweep", metavar="STORE", default=None,
-                   help="add the charts of a sweep store (not available in this version)")
+                   help="add the sweep section from a store made by railfault sweep FILE "
+                        "--store STORE (the same file)")
     r.set_defaults(func=cmd_report)

@@ -17,6 +17,7 @@ from __future__ import annotations
 from dataclasses import replace
 
 from sim.model import Finding, Scenario
+from sim.verdict import sort_findings
 
 __all__ = ["static_findings", "never_cleared", "NEVER_CLEARED", "STATIC_MARK"]
 
@@ -46,9 +47,10 @@ def _mentions(where: str, names) -> bool:
 def never_cleared(static: list[Finding], causes=()) -> list[Finding]:
     """The static errors of :data:`NEVER_CLEARED`, marked as static, each tied to the
     first cause (``causes``: :class:`sim.diagnose.cause.Cause`) whose sections or
-    devices it names."""
+    devices it names; in the order of ``railfault check`` (:func:`sim.verdict.sort_findings`),
+    so that a run does not depend on the order its caller gives them in."""
     out = []
-    for f in static:
+    for f in sort_findings(static):      # the check's order, however the caller lists them
         if f.code not in NEVER_CLEARED or f.severity != "error":
             continue
         because = ""

@@ -13,7 +13,7 @@ import time
 from dataclasses import dataclass, field
 from typing import Optional
 
-from sim.report.findings import group_findings, headline_of, key_figures, verdict_of
+from sim.report import findings as F
 
 #: Episodes drawn in detail (sequence of operation and current traces), the worst first.
 DETAIL = 6
@@ -37,6 +37,12 @@ class Report:
     caution: str
     check: dict
     result: object
+    check_findings: tuple = ()
+    check_headline: list = field(default_factory=list)
+    run_blocks: list = field(default_factory=list)
+    check_causes: list = field(default_factory=list)
+    check_followers: list = field(default_factory=list)
+    coin_test: Optional[dict] = None
     layout_fig: object = None
     pairs: list = field(default_factory=list)
     pairs_table: object = None
@@ -49,25 +55,28 @@ class Report:
     faultmap: object = None
     weakest: object = None
     windows: object = None
-    groups: list = field(default_factory=list)
     findings_table: object = None
     settings: list = field(default_factory=list)
     wiring: object = None
     gaps: object = None
     assumptions: object = None
     episodes: object = None
+    episode_paths: object = None
     margins: object = None
     devices: object = None
     bounds: list = field(default_factory=list)
     notes: list = field(default_factory=list)
     key_lines: list = field(default_factory=list)
     timings: dict = field(default_factory=dict)
+    sweep: object = None
 
     @property
     def figures(self) -> list:
         """Every figure of the page, in page order."""
         out = [self.layout_fig] + list(self.charts) + list(self.sequences) + [self.dark] + \
             list(self.traces) + [self.faultmap]
+        if self.sweep is not None:
+            out += list(self.sweep.figures)
         return [f for f in out if f is not None]
 
     @property
@@ -76,6 +85,8 @@ class Report:
         out = [self.pairs_table, self.episodes, self.margins, self.devices, self.dark_spans,
                self.weakest, self.windows, self.findings_table, self.wiring, self.gaps,
                self.assumptions] + list(self.settings) + list(self.chart_intervals)
+        if self.sweep is not None:
+            out += list(self.sweep.tables)
         out += [f.data for f in self.figures if f.data is not None]
         return [t for t in out if t is not None]
 
@@ -89,7 +100,7 @@ def today(now: Optional[float] = None) -> str:
 
 
 def build(scn, step_m: float = 0.5, detail: int = DETAIL, recorder=None,
-          date: Optional[str] = None, png: bool = True) -> Report:
+          date: Optional[str] = None, png: bool = True, sweep=None) -> Report:
     """Check, map and run a scenario, and build the report's page model.
 
     Parameters
@@ -107,6 +118,9 @@ def build(scn, step_m: float = 0.5, detail: int = DETAIL, recorder=None,
         The date printed (default: :func:`today`).
     png : bool
         Also render each figure as PNG.
+    sweep : sim.report.sweep.SweepData, optional
+        A sweep store read for this scenario (:func:`sim.report.sweep.read_store`):
+        adds the sweep section.
 
     Returns
     -------
@@ -135,13 +149,13 @@ def build(scn, step_m: float = 0.5, detail: int = DETAIL, recorder=None,
     timings["check_s"] = time.perf_counter() - t0
     t0 = time.perf_counter()
     notes = []
-    try:
+    if check_res.coin_test is None:     # the circuit cannot be solved: RF-CKT-006 says why
+        fm, windows = None, []
+        notes.append("The fault-current map could not be computed (see RF-CKT-006 under "
+                     "Findings); the charts have no fault-current marks.")
+    else:
         fm = fault_map(scn, layout, step_m=step_m)
         windows = trip_windows(scn, fm)
-    except Exception as exc:   # the check reported it (RF-CKT-006); the page says so
-        fm, windows = None, []
-        notes.append(f"The fault-current map could not be computed ({exc}); the charts "
-                     "have no fault-current marks.")
     timings["faultmap_s"] = time.perf_counter() - t0
     t0 = time.perf_counter()
     rec = recorder if recorder is not None else TraceRecorder()
@@ -149,14 +163,16 @@ def build(scn, step_m: float = 0.5, detail: int = DETAIL, recorder=None,
     timings["run_s"] = time.perf_counter() - t0
     t0 = time.perf_counter()
 
-    groups = group_findings(check["findings"], result.findings)
-    verdict = verdict_of(check, result)
+    cf, rf = check_res.findings, result.findings
     rep = Report(
         title=scn.title or os.path.basename(scn.path), path=scn.path, sha256=scn.sha256,
         seed=scn.seed, version=__version__, date=date or today(), duration_s=scn.duration_s,
-        verdict=verdict, check_verdict=check["verdict"], run_verdict=result.verdict,
-        headline=headline_of(check, result, groups), caution=CAUTION, check=check,
-        result=result, groups=groups, notes=notes)
+        verdict=F.verdict(cf, rf), check_verdict=check_res.verdict,
+        run_verdict=result.verdict, headline=list(result.headline), caution=CAUTION,
+        check=check, result=result, check_findings=tuple(cf),
+        check_headline=F.check_headline(cf), run_blocks=F.run_blocks(rf),
+        check_causes=F.check_causes(cf), check_followers=F.check_followers(cf),
+        coin_test=check_res.coin_test, notes=notes)
     req = scn.t_margin_required_s
 
     rep.layout_fig = draw_layout(scn, layout, result)
@@ -176,21 +192,26 @@ def build(scn, step_m: float = 0.5, detail: int = DETAIL, recorder=None,
     rep.sequences = [draw_sequence(scn, s, req) for s in seqs]
     rep.traces = [draw_traces(scn, s) for s in seqs if s.window is not None]
     lanes = dark_lanes(scn, layout, rec)
-    rep.key_lines = key_figures(result, rep.pairs, lanes)
+    rep.key_lines = F.key_figures(result, rep.pairs, lanes)
     rep.dark = draw_dark(lanes, result.t_end_s)
     rep.dark_spans = dark_spans_table(lanes)
-    if check.get("fault_current"):
+    if check["fault_current"]:
         rep.faultmap = draw_faultmap(scn, layout, check)
     rep.weakest = RT.weakest_table(check)
     rep.windows = RT.windows_table(windows)
-    rep.findings_table = RT.findings_table(groups)
+    rep.findings_table = RT.findings_table(cf, rf)
     rep.settings = S.settings_tables(scn, layout)
-    rep.wiring = S.wiring_table(scn, layout, check)
+    rep.wiring = S.wiring_table(scn, check["wiring"])
     rep.gaps = S.gap_table(scn, layout)
     rep.assumptions = S.assumptions_table(scn)
     rep.episodes = RT.episodes_table(result, set(worst))
+    rep.episode_paths = RT.episode_paths_view(rep.episodes)
     rep.margins = RT.margins_csv_table(result)
     rep.devices = RT.devices_table(result)
+    if sweep is not None:
+        from sim.report.plot_sweep import sweep_section
+
+        rep.sweep = sweep_section(sweep)
     rep.bounds = _bounds(rep, rec, len(result.episodes), len(worst))
     if not png:
         for f in rep.figures:

@@ -5,7 +5,8 @@ to the target), which is then renamed into place. A folder already at the
 target is replaced only when it is a report railfault wrote (it holds the
 marker file :data:`MARKER`) or is empty; anything else is refused, so that
 ``-o`` can never delete a folder of the user's. If anything fails, the
-temporary folder is removed and the target is left as it was.
+temporary folder is removed and the target is left as it was. A folder that
+cannot be used raises :class:`sim.errors.OutputError` (exit 2, nothing written).
 """
 from __future__ import annotations
 
@@ -14,14 +15,13 @@ import os
 import shutil
 import tempfile
 
+from sim.errors import OutputError
 from sim.report.page import render_html, render_markdown
+
+__all__ = ["MARKER", "OutputError", "check_target", "files_of", "write"]
 
 #: Marker file of a report folder (its content: the tool and version).
 MARKER = ".railfault-report"
-
-
-class OutputError(ValueError):
-    """The output folder cannot be used (exists and is not a report, or is a file)."""
 
 
 def _is_replaceable(path: str) -> bool:
@@ -54,6 +54,8 @@ def files_of(rep) -> dict:
         "check.json": json.dumps(rep.check, indent=2) + "\n",
         MARKER: f"railfault {rep.version}\n",
     }
+    if rep.sweep is not None:
+        files["sweep.json"] = json.dumps(rep.sweep.summary, indent=2) + "\n"
     for t in rep.tables:
         files.setdefault(t.filename, t.csv_text())
     for f in rep.figures:

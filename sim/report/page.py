@@ -14,11 +14,13 @@ viewer passes raw HTML through) and ``|`` in table cells.
 from __future__ import annotations
 
 import os
+import re
 
 import jinja2
 from markupsafe import Markup
 
-from sim.report.findings import SYMBOL, WORD
+from sim.report.findings import SYMBOL, WORD, times_text
+from sim.report.runtables import episode_main_view
 
 _HERE = os.path.join(os.path.dirname(__file__), "templates")
 #: Devices per column block of a transposed settings table (so that it prints).
@@ -34,8 +36,20 @@ def _env(html: bool) -> jinja2.Environment:
         undefined=jinja2.StrictUndefined, keep_trailing_newline=True)
     env.filters["md"] = md_text
     env.filters["mdcell"] = md_cell
-    env.globals.update(SYMBOL=SYMBOL, WORD=WORD, transpose=transpose, PAGE_ROWS=PAGE_ROWS)
+    env.filters["glue"] = glue_units
+    env.globals.update(SYMBOL=SYMBOL, WORD=WORD, transpose=transpose, PAGE_ROWS=PAGE_ROWS,
+                       times=times_text, episode_main=episode_main_view)
     return env
+
+
+#: A number and its unit (``7.43 A``, ``-2.191 ms``, ``0.883 A²s``, ``50 %``).
+_NUMBER_UNIT = re.compile(r"(\d) (µs|ms|s|A²s|A|V|mm|m|ohm|%)(?=[\s,;:).\]]|$)")
+
+
+def glue_units(value) -> str:
+    """Page text with a no-break space between each number and its unit, so that a
+    table cell never wraps a unit away from its number (escaped later as usual)."""
+    return _NUMBER_UNIT.sub("\\1\u00a0\\2", "" if value is None else str(value))
 
 
 def md_text(value) -> str:
@@ -52,7 +66,7 @@ def md_cell(value) -> str:
 def transpose(table, block: int = SETTINGS_BLOCK) -> list[dict]:
     """A settings table turned so that each device is a column, in blocks of
     ``block`` devices: ``[{"head": [...], "rows": [[label, v1, ...], ...]}, ...]``."""
-    cols = table.columns
+    cols = table.page_columns
     text = table.text_rows()
     out = []
     for start in range(0, len(text), block):

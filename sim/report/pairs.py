@@ -4,18 +4,23 @@ measured, the required margin, pass or fail in words, and the smallest setting
 change that restores a failing pair.
 
 Two kinds of pair (US Army TM 5-811-14 section 4-1: the device nearest the
-fault operates first):
+fault operates first), each timed and mended by the rules of ``railfault
+check`` (:mod:`sim.checks.coordination`), never by a second copy of them:
 
 * **race**: a reversing device (a reverser, or a booster that reverses its own
   output) against every device a short at its gap passes through. Its time to
-  clear is the latest detection plus the swap time; the upstream device's trip
-  time is its earliest trip (sampled sensing: ``(n - 1) Ts``). The static margin
-  is :func:`sim.checks.coordination.reversing_margins`; the run's margin is the
-  least over the episodes that device cleared (``Episode.margins``). Required:
-  ``require.margin``.
-* **order**: a breaker (or a reverser's own trip) against every breaker or
-  booster feeding it: its latest trip must come before their earliest trip
-  (the rule of RF-COORD-004/005); required: strictly before.
+  clear is the latest detection plus the swap time
+  (:func:`~sim.checks.coordination.clear_time_s`); the static margin is
+  :func:`~sim.checks.coordination.reversing_margins` (the upstream device's
+  earliest trip minus that time to clear); the run's margin is the least over
+  the episodes at its gaps (``Episode.margins``); required: ``require.margin``.
+  The fix is the check's advice (:func:`~sim.checks.coordination.race_advice`):
+  each setting there wins on its own, whatever the sample phases.
+* **order**: a breaker (or a reverser's own trip, on a short its swap does not
+  clear) against every breaker or booster feeding it, on the time line of a hard
+  short in its district (:func:`~sim.checks.coordination.nested_times`, the rule
+  of RF-COORD-004/005): its latest action must come before their earliest trip;
+  the fix is :func:`~sim.checks.coordination.nested_advice`.
 """
 from __future__ import annotations
 
@@ -23,8 +28,8 @@ import math
 from dataclasses import dataclass
 from typing import Optional
 
-from sim.checks.coordination import (clear_time_s, earliest_trip_s, latest_trip_s,
-                                     reversing_margins, sampled_count)
+from sim.checks.coordination import (clear_time_s, nested_advice, nested_times, race_advice,
+                                     reversing_margins)
 
 
 @dataclass
@@ -32,8 +37,8 @@ class Pair:
     kind: str                 # race | order
     device: str
     upstream: str
-    t_device_s: float         # its time to clear (race) or latest trip (order)
-    t_upstream_s: float       # the upstream device's earliest trip
+    t_device_s: float         # its time to clear (race) or latest action (order), after onset
+    t_upstream_s: float       # the upstream device's earliest trip, after onset
     static_margin_s: float
     run_margin_s: Optional[float]
     n_episodes: int
@@ -60,7 +65,7 @@ def swapper_of(scn, layout, ep) -> Optional[str]:
     """The reversing device that cleared (or had to clear) an episode's short."""
     from sim.report.tcc import is_reversing
 
-    for d in list(getattr(ep, "devices", None) or []) + [ep.acted]:
+    for d in list(ep.devices) + [ep.acted]:
         if d and is_reversing(scn, d):
             return d
     for s in sorted(_joint_sections(ep.where)):
@@ -70,21 +75,8 @@ def swapper_of(scn, layout, ep) -> Optional[str]:
     return None
 
 
-def _fix_race(scn, r: str, up: str, deficit_s: float) -> str:
-    dev = scn.device(r)
-    t_sense = dev.t_sense_s if r in scn.reversers else dev.t_sense_reverse_s
-    u = scn.device(up)
-    period = u.sense.period_s
-    step = deficit_s
-    if period:
-        step = sampled_count(deficit_s, period) * period
-    parts = []
-    if dev.t_swap_s + t_sense >= deficit_s:
-        parts.append(f"make {r} clear at least {deficit_s * 1e3:.3f} ms sooner (sense delay "
-                     f"{t_sense * 1e3:g} ms + swap time {dev.t_swap_s * 1e3:g} ms today)")
-    parts.append(f"lengthen {up}'s trip delay by {step * 1e3:.3f} ms (to "
-                 f"{(u.trip.t_after_s + step) * 1e3:.3f} ms)")
-    return " or ".join(parts)
+def _options(texts: list[str]) -> str:
+    return ("any one of: " + "; or ".join(texts)) if texts else ""
 
 
 def coordination_pairs(scn, layout, result) -> list[Pair]:
@@ -92,7 +84,7 @@ def coordination_pairs(scn, layout, result) -> list[Pair]:
     req = scn.t_margin_required_s
     run_least: dict = {}
     run_count: dict = {}
-    for ep in result.episodes if result is not None else ():
+    for ep in result.episodes:
         if not ep.margins:
             continue
         r = swapper_of(scn, layout, ep)
@@ -106,30 +98,35 @@ def coordination_pairs(scn, layout, result) -> list[Pair]:
             run_least[key] = m if key not in run_least else min(run_least[key], m)
     pairs: list[Pair] = []
     for r, ups in sorted(reversing_margins(scn, layout).items()):
+        if not ups:
+            continue
         t_clear, _ = clear_time_s(scn, r)
+        advice = None
         for up, static in sorted(ups.items(), key=lambda kv: (kv[1], kv[0])):
-            u = scn.device(up)
-            t_up = earliest_trip_s(u.trip.t_after_s, u.sense.period_s)
             run_m = run_least.get((r, up))
             least = static if run_m is None else min(static, run_m)
-            need = max(req, 0.0)
-            fix = "" if least >= need else _fix_race(scn, r, up, need - least)
-            pairs.append(Pair("race", r, up, t_clear, t_up, static, run_m,
+            fix = ""
+            if least < max(req, 0.0):
+                if advice is None:
+                    advice = race_advice(scn, layout, r)
+                own, upstream = advice
+                texts = [a.text for a in own] + ([upstream[up].text] if up in upstream
+                                                 else [])
+                fix = _options(texts) or f"no single setting of {r} or {up} wins the race: " \
+                                         f"change the devices"
+            pairs.append(Pair("race", r, up, t_clear, t_clear + static, static, run_m,
                               run_count.get((r, up), 0), req, fix))
-    nested = [(k, scn.breakers[k]) for k in scn.breakers] + \
-        [(k, scn.reversers[k]) for k in scn.reversers]
-    for k, dev in sorted(nested):
-        t_late = latest_trip_s(dev.trip.t_after_s, dev.sense.period_s)
+    nested = sorted(list(scn.breakers) + list(scn.reversers))
+    for k in nested:
         for up in scn.upstream(k):
             if up not in scn.boosters and up not in scn.breakers:
                 continue
-            u = scn.device(up)
-            t_early = earliest_trip_s(u.trip.t_after_s, u.sense.period_s)
-            margin = t_early - t_late
+            tl = nested_times(scn, k, up)
+            margin = tl["e_u_s"] - tl["latest_s"]
             fix = ""
             if margin <= 0.0:
-                fix = (f"set {k}'s trip delay below {t_early * 1e3:.3g} ms"
-                       + (" minus one sample period" if dev.sense.period_s else "")
-                       + f", or lengthen {up}'s")
-            pairs.append(Pair("order", k, up, t_late, t_early, margin, None, 0, 0.0, fix))
+                fix = _options([a.text for a in nested_advice(scn, k, up)]) or \
+                    f"set {k}'s trip delay shorter"
+            pairs.append(Pair("order", k, up, tl["latest_s"], tl["e_u_s"], margin, None, 0,
+                              0.0, fix))
     return pairs

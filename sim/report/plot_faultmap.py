@@ -23,7 +23,7 @@ def district_rows(check: dict, layout, scn) -> dict:
     """``{device: [rows through it of its own district's sections, in order]}``."""
     order = {s: k for k, s in enumerate(scn.track.sections)}
     out: dict = {}
-    for r in check.get("fault_current", ()):
+    for r in check["fault_current"]:
         if layout.district(r["section"]) == r["device"]:
             out.setdefault(r["device"], []).append(r)
     for rows in out.values():
@@ -59,7 +59,7 @@ def draw_faultmap(scn, layout, check: dict):
                     last = r["section"]
                     base = x0 - r["at_m"]
                 xs.append(base + r["at_m"])
-                pro.append(r.get("prospective_a", r["current_a"]))
+                pro.append(r["prospective_a"])
                 eff.append(r["current_a"])
             ax.plot(xs, pro, color="#000000", lw=1.4, label="prospective (no supply limit)")
             ax.plot(xs, eff, color="#0072B2", lw=1.6, ls="--", label="with the supply limit")

@@ -117,17 +117,20 @@ def draw_layout(scn, layout, result, key: str = "layout"):
                     p0, p1 = c - nrm2 * bar, c + nrm2 * bar
                     ax.plot([p0[0], p1[0]], [p0[1], p1[1]], color="#000000",
                             lw=0.8 if big else 1.8, zorder=3)
-        # sections
+        # sections: one collection for the plain ones, one for the reversing ones
+        groups: dict = {False: [], True: []}
         for s, p in pos.items():
             d = layout.district(s)
-            rev = d is not None and is_reversing(scn, d)
-            ax.scatter([p[0]], [p[1]], s=260 if n <= LABEL_MAX else 60,
-                       c=col.get(d, "#FFFFFF"), edgecolors="#000000",
-                       linewidths=2.4 if rev else 0.8, hatch="////" if rev else None,
-                       zorder=4)
+            groups[d is not None and is_reversing(scn, d)].append((p, col.get(d, "#FFFFFF")))
             if n <= LABEL_MAX:
                 ax.annotate(s, p, xytext=(0, -11), textcoords="offset points", ha="center",
                             va="top", fontsize=7.5, zorder=6, bbox=LABEL_BOX)
+        for rev, items in groups.items():
+            if items:
+                ax.scatter([p[0] for p, _ in items], [p[1] for p, _ in items],
+                           s=260 if n <= LABEL_MAX else 60, c=[c for _, c in items],
+                           edgecolors="#000000", linewidths=2.4 if rev else 0.8,
+                           hatch="////" if rev else None, zorder=4)
         # devices at their feed points: beside the first section each one feeds,
         # pushed outwards from the middle of the drawing; supplies beside their booster
         centre = np.mean(list(pos.values()), axis=0)
@@ -173,20 +176,25 @@ def draw_layout(scn, layout, result, key: str = "layout"):
         for ep in result.episodes:
             places.setdefault((ep.where, ep.outcome), []).append(ep)
         rows = []
+        marks: dict = {}
+        lift = 0.02 if big else 0.07
         for (where, outcome), eps in sorted(places.items()):
             p = _place_of(where, pos, mids)
-            m, c, word = OUTCOME_MARKS.get(outcome, ("o", GREY, outcome))
             rows.append({"where": where, "outcome": outcome, "episodes": len(eps),
                          "first_s": eps[0].start_s})
             if p is None:
                 continue
-            lift = 0.02 if big else 0.07
-            ax.scatter([p[0]], [p[1] + lift], marker=m, s=30 if big else 90, c=c,
-                       edgecolors="#000000", linewidths=0.6, zorder=7)
+            marks.setdefault(outcome, []).append(p)
             if not big:     # a large layout: the shape and the legend say it, words crowd
+                word = OUTCOME_MARKS.get(outcome, ("o", GREY, outcome))[2]
                 ax.annotate(f"{word}" + (f" x{len(eps)}" if len(eps) > 1 else ""),
                             (p[0], p[1] + lift), xytext=(7, 4), textcoords="offset points",
                             fontsize=7, fontweight="bold", zorder=8)
+        for outcome, pts in marks.items():
+            m, c, _ = OUTCOME_MARKS.get(outcome, ("o", GREY, outcome))
+            ax.scatter([p[0] for p in pts], [p[1] + lift for p in pts], marker=m,
+                       s=30 if big else 90, c=c, edgecolors="#000000", linewidths=0.6,
+                       zorder=7)
         # legend
         from matplotlib.lines import Line2D
         from matplotlib.patches import Patch

@@ -8,9 +8,10 @@ from __future__ import annotations
 
 import math
 
+from sim.diagnose.text import plural
 from sim.report.figures import render
 from sim.report.sequence import Sequence
-from sim.report.style import GREY, colour, figure, linestyle
+from sim.report.style import GREY, colour, figure, linestyle, spread
 from sim.report.tables import Column, Table, a_text, dur_text, instant_text, ms_text, t_text
 
 SPAN_STYLE = {  # kind: (face, hatch, edge, words)
@@ -50,10 +51,12 @@ def draw_sequence(scn, seq: Sequence, required_s: float):
     ep = seq.episode
     t0 = seq.t0_s
     pad = max(0.1, 0.08 * _ms(seq.t1_s, t0))
+    x_lo, x_hi = -pad, _ms(seq.t1_s, t0) + 4 * pad
     lanes = seq.lanes
     y = {ln: len(lanes) - 1 - k for k, ln in enumerate(lanes)}
     with figure(9.0, 1.6 + 0.55 * len(lanes)) as fig:
-        ax = fig.add_axes((0.2, 0.26 if len(lanes) < 4 else 0.18, 0.78, 0.62))
+        left = min(0.4, 0.05 + 0.0075 * max(len(ln) for ln in lanes))
+        ax = fig.add_axes((left, 0.26 if len(lanes) < 4 else 0.18, 0.96 - left, 0.62))
         seen = set()
         for sp in seq.spans:
             face, hatch, edge, words = SPAN_STYLE[sp.kind]
@@ -79,9 +82,13 @@ def draw_sequence(scn, seq: Sequence, required_s: float):
                                     "ls": "-" if ar.ok else "--", "shrinkA": 0, "shrinkB": 0},
                         zorder=6)
             word = "meets the required" if ar.ok else "SHORT of the required"
+            # the label runs away from the nearer edge of the axes, so it stays inside
+            lo, hi = sorted((_ms(ar.t_from_s, t0), _ms(ar.t_to_s, t0)))
+            right_half = (lo + hi) / 2.0 > (x_lo + x_hi) / 2.0
             ax.annotate(f"margin {ms_text(ar.margin_s, True)} ({word} {ms_text(required_s)})",
-                        (_ms(min(ar.t_from_s, ar.t_to_s), t0), yy), xytext=(2, 3),
-                        textcoords="offset points", va="bottom", ha="left", fontsize=7,
+                        (hi if right_half else lo, yy), xytext=(-2 if right_half else 2, 3),
+                        textcoords="offset points", va="bottom",
+                        ha="right" if right_half else "left", fontsize=7,
                         fontweight="bold", zorder=6)
         if t_clear is not None:
             ax.axvline(_ms(t_clear, t0), color="#000000", lw=0.8, ls=":")
@@ -95,10 +102,11 @@ def draw_sequence(scn, seq: Sequence, required_s: float):
         ax.set_yticks(range(len(lanes)))
         ax.set_yticklabels(list(reversed(lanes)))
         ax.set_ylim(-0.7, len(lanes) - 0.3)
-        ax.set_xlim(-pad, _ms(seq.t1_s, t0) + 4 * pad)
+        ax.set_xlim(x_lo, x_hi)
         ax.set_xlabel(f"time since the onset at {ep.start_s:.6f} s (ms)")
         ax.grid(axis="y", visible=False)
-        ax.legend(loc="upper left", bbox_to_anchor=(-0.25, -0.2 if len(lanes) < 4 else -0.14),
+        ax.legend(loc="upper left", bbox_to_anchor=((0.01 - left) / (0.96 - left),
+                                                    -0.2 if len(lanes) < 4 else -0.14),
                   ncol=3, frameon=False, fontsize=7)
         title = (f"Episode {seq.index + 1}: {ep.kind} at {ep.where}"
                  + (f" (train {ep.train})" if ep.train else "") + f", {ep.outcome}")
@@ -150,6 +158,7 @@ def draw_traces(scn, seq: Sequence):
     t_hi = max(w.t1_s, seq.t1_s)
     with figure(9.0, 4.4) as fig:
         ax = fig.add_axes((0.08, 0.30, 0.9, 0.6))
+        labels = []
         for k, name in enumerate(names):
             pts = w.series[name]
             xs = [_ms(t, t0) for t, _ in pts] + [_ms(t_hi, t0)]
@@ -162,13 +171,19 @@ def draw_traces(scn, seq: Sequence):
             if not is_short:
                 for words, thr in _thresholds(scn, name):
                     ax.axhline(thr, color=col, lw=0.8, ls=":")
-                    ax.annotate(f"{name} {words} {thr:g} A", (_ms(w.t0_s, t0), thr),
-                                xytext=(2, 2), textcoords="offset points", fontsize=6.5,
-                                color=col)
+                    labels.append((thr, f"{name} {words} {thr:g} A", col))
         ax.set_xlim(_ms(w.t0_s, t0), _ms(t_hi, t0))
+        ax.set_ylim(bottom=0)
+        y_top = ax.get_ylim()[1]
+        # threshold labels at the right-hand end, at least 5 % of the axis apart
+        at = spread([y for y, _, _ in labels], 0.05 * y_top, hi=0.95 * y_top)
+        for (thr, text, col), y in zip(labels, at):
+            ax.annotate(text, (_ms(t_hi, t0), thr), xytext=(_ms(t_hi, t0), y),
+                        textcoords="data", ha="right", va="bottom", fontsize=6.5, color=col,
+                        bbox={"boxstyle": "round,pad=0.1", "fc": "#FFFFFF", "ec": "none",
+                              "alpha": 0.85})
         ax.set_xlabel(f"time since the onset at {ep.start_s:.6f} s (ms)")
         ax.set_ylabel("current (A)")
-        ax.set_ylim(bottom=0)
         ax.legend(loc="upper left", bbox_to_anchor=(0.0, -0.16), ncol=3, frameon=False,
                   fontsize=7)
         title = f"Episode {seq.index + 1}: currents around the {ep.kind} at {ep.where}"
@@ -204,7 +219,7 @@ def draw_dark(lanes, t_end_s: float):
                 spans = merged
             ax.broken_barh([(a, max(b - a, t_end_s * 2e-4)) for a, b in spans], (yy - 0.3, 0.6),
                            facecolors="#000000", edgecolors="#000000", hatch="xxxx", lw=0.4)
-            ax.annotate(f"dark {dur_text(ln.total_s)}" + (f" ({len(ln.spans)} times)"
+            ax.annotate(f"dark {dur_text(ln.total_s)}" + (f" ({plural(len(ln.spans), 'span')})"
                                                         if ln.spans else ""),
                         (1.0, yy), xycoords=("axes fraction", "data"), xytext=(6, 0),
                         textcoords="offset points", ha="left", va="center", fontsize=7)

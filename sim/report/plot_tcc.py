@@ -14,7 +14,8 @@ import math
 import numpy as np
 
 from sim.report.figures import render
-from sim.report.style import GREY, a_label, colour, figure, log_axis, marker, t_label
+from sim.report.style import (GREY, a_label, colour, figure, log_axis, marker, spread,
+                              t_label)
 from sim.report.tables import Column, Table, ms_text, t_text
 from sim.report.tcc import T_CEIL_S, T_FLOOR_S
 
@@ -111,6 +112,11 @@ def draw_tcc(scn, chart):
             ax.axvline(v.i_a, color=col, ls=ls, lw=1.0)
             ax.annotate(v.label, (v.i_a, T_CEIL_S), xytext=(2, -4), textcoords="offset points",
                         rotation=90, va="top", ha="left", fontsize=6.5, color=col)
+        mids = [math.log10(math.sqrt(max(iv.t_from_s, T_FLOOR_S) * max(iv.t_to_s, T_FLOOR_S)))
+                for iv in chart.intervals]
+        # labels at least a third of a decade apart (about 11 points at this height)
+        at = spread(mids, math.log10(T_CEIL_S / T_FLOOR_S) / 27.0)
+        lo_i, hi_i = chart.i_lim
         for n, iv in enumerate(chart.intervals):
             x = iv.i_a * (1.12 ** n)
             y0, y1 = max(iv.t_from_s, T_FLOOR_S), max(iv.t_to_s, T_FLOOR_S)
@@ -119,9 +125,18 @@ def draw_tcc(scn, chart):
                         arrowprops={"arrowstyle": "<->", "color": "#000000", "lw": 1.1,
                                     "ls": "-" if ok else "--", "shrinkA": 0, "shrinkB": 0})
             word = "" if ok else " (NOT COORDINATED)"
+            # written away from the nearer side of the chart, so it stays inside, on a
+            # white ground, with a leader to its arrow when moved off it
+            right = math.log(x) > (math.log(lo_i) + math.log(hi_i)) / 2.0
+            x_text = x / 1.6 if right else x * 1.6
             ax.annotate(f"{ms_text(iv.margin_s, True)} {iv.down} / {iv.up}{word}",
-                        (x, math.sqrt(y0 * y1)), xytext=(4, 0), textcoords="offset points",
-                        fontsize=6.8, va="center", fontweight="bold")
+                        (x, 10 ** mids[n]), xytext=(x_text, 10 ** at[n]),
+                        textcoords="data", fontsize=6.8, va="center",
+                        ha="right" if right else "left", fontweight="bold",
+                        bbox={"boxstyle": "round,pad=0.15", "fc": "#FFFFFF", "ec": "none",
+                              "alpha": 0.9},
+                        arrowprops={"arrowstyle": "-", "color": GREY, "lw": 0.6,
+                                    "shrinkA": 0, "shrinkB": 2})
         ax.legend(handles=handles, loc="upper left",
                   bbox_to_anchor=(-0.08, -0.55 / h_axes), frameon=False, fontsize=7, ncol=1)
         names = " / ".join(path)

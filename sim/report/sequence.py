@@ -22,7 +22,6 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
-from typing import Optional
 
 #: Events that make a device's output dark, and those that end it.
 DARK_START = frozenset({"trip", "thermal_trip", "off", "dropout"})
@@ -110,39 +109,26 @@ def worst_episodes(result, n: int) -> list[int]:
     return order[:n]
 
 
-def cleared_at(ep) -> Optional[float]:
-    """When the short of an episode was cleared by a swap (the margins' origin)."""
-    t = getattr(ep, "t_cleared_s", None)
-    if t is None and ep.outcome == "swapped":
-        t = ep.acted_s
-    return t
-
-
-def episode_devices(scn, ep, window) -> list[str]:
-    """The devices of an episode's lanes, from the track up: the contract's
-    ``devices`` when the result has them, else the acting device, the devices
-    with margins and the devices with events in the recorded window."""
-    names = list(getattr(ep, "devices", None) or [])
-    extra = [ep.acted] + sorted(ep.margins or {})
-    if window is not None:
-        extra += [e.device for e in window.events if scn.device_kind(e.device) is not None]
-    for d in extra:
-        if d and d not in names and scn.device_kind(d) is not None:
-            names.append(d)
-    return sorted(names, key=lambda d: (-len(scn.upstream(d)), d))
+def episode_devices(scn, ep) -> list[str]:
+    """The lanes of an episode: the devices that carried it (``Episode.devices``), from
+    the track up, and the device that acted first when it is not one of them."""
+    names = list(ep.devices)
+    if ep.acted and ep.acted not in names and scn.device_kind(ep.acted) is not None:
+        names.append(ep.acted)
+    return names
 
 
 def sequence_of(scn, index: int, ep, window, required_s: float) -> Sequence:
     """The lanes, spans, marks and margin arrows of one episode."""
     t_end = ep.end_s if ep.end_s is not None else (window.t1_s if window else ep.start_s)
     seq = Sequence(index, ep, window=window)
-    short_lane = f"short at {ep.where}"
+    short_lane = "short current"
     seq.lanes.append(short_lane)
     seq.spans.append(Span(short_lane, "short", ep.start_s, t_end,
                           f"peak {ep.peak_a:.2f} A"))
-    devices = episode_devices(scn, ep, window)
+    devices = episode_devices(scn, ep)
     seq.lanes.extend(devices)
-    t_clear = cleared_at(ep)
+    t_clear = ep.t_cleared_s
     t_hi = max(t_end, ep.acted_s or t_end)
     events = list(window.events) if window is not None else []
     w_end = window.t1_s if window is not None else t_end
@@ -200,6 +186,7 @@ def sequence_of(scn, index: int, ep, window, required_s: float) -> Sequence:
                 continue
             t_trip = t_clear + m
             seq.arrows.append(Arrow(d, t_clear, t_trip, m, required_s))
+            t_hi = max(t_hi, t_clear)
             tripped = any(mk.lane == d and mk.kind == "trip" for mk in seq.marks)
             if not tripped:
                 seq.spans.append(Span(d, "timing", ep.start_s, t_trip,

@@ -2,9 +2,10 @@
 
 * **Settings sheet**: every supply, booster, breaker and reverser with every
   setting the simulation used (defaults filled in), one table per kind.
-* **Wiring sheet**: the ``wiring`` rows of ``railfault check`` when it gives
-  them (terminal to rail, per section and feeder); otherwise the feeders as the
-  scenario gives them (section, feeding device, where along it, wire).
+* **Wiring sheet**: the ``wiring`` rows of ``railfault check`` (per section and
+  feeder: the device, where along the section, which output terminal goes to
+  which rail, as built or chosen by the tool), with each feeder's wire from the
+  file.
 * **Gap list**: every joint with an insulated gap, the districts on both sides
   and whether it is a reversing section's gap.
 * **Assumptions**: every default the scenario left to the loader whose source
@@ -168,46 +169,35 @@ def settings_tables(scn, layout) -> list[Table]:
     return out
 
 
-def wiring_table(scn, layout, check: dict) -> Table:
-    """The wiring sheet: ``check``'s ``wiring`` rows, or the scenario's feeders."""
-    rows = check.get("wiring")
-    if rows:
-        keys: list[str] = []
-        for r in rows:
-            for k in r:
-                if k not in keys:
-                    keys.append(k)
-        cols = [Column(k, k.replace("_", " "), _unit_fmt(k), k.endswith(("_m", "_a", "_s")))
-                for k in keys]
-        return Table("wiring", "Wiring sheet (from railfault check)", cols,
-                     [dict(r) for r in rows])
+def wiring_table(scn, rows) -> Table:
+    """The wiring sheet: the ``wiring`` rows of ``railfault check``, one per feeder, with
+    the terminal that goes to each rail and the feeder's wire from the file."""
+    from sim.checks.wiring import RAILS, TERMINALS
+
     out = []
-    for name, sec in scn.track.sections.items():
-        dev = layout.district(name)
-        if not sec.feeders:
-            out.append({"section": name, "device": dev or "unfed", "feeder": None,
-                        "at_m": None, "wire": "-", "length_m": None,
-                        "leads": "through bonded joints" if dev else "none"})
-        for k, f in enumerate(sec.feeders):
-            out.append({"section": name, "device": sec.feed, "feeder": k, "at_m": f.at_m,
-                        "wire": _wire_text(f.wire), "length_m": f.wire.length_m or None,
-                        "leads": "normal" if sec.leads > 0 else "swapped"})
-    return Table("wiring", "Feeders (from the scenario file)", [
-        Column("section", "section"), Column("device", "fed by"), Column("feeder", "feeder"),
-        Column("at_m", "at (from end a)", m_text, True), Column("wire", "wire"),
-        Column("length_m", "run", m_text, True), Column("leads", "leads")], out,
-        note="Feeder pairs as the scenario gives them; positions are measured from each "
-             "section's a end.")
-
-
-def _unit_fmt(key: str):
-    if key.endswith("_m"):
-        return m_text
-    if key.endswith("_a"):
-        return a_text
-    if key.endswith("_s"):
-        return t_text
-    return plain
+    count: dict = {}
+    for r in rows:
+        k = count[r["section"]] = count.get(r["section"], 0) + 1
+        feeders = scn.track.sections[r["section"]].feeders
+        if k <= len(feeders):
+            w = feeders[k - 1].wire
+            wire = _wire_text(w) + (f", {m_text(w.length_m)}" if w.length_m else "")
+        else:
+            wire = "none given: one feeder assumed at mid-length"
+        rails = RAILS[r["leads"]]
+        out.append(dict(r, feeder=k, wire=wire, out1=rails[0], out2=rails[1],
+                        origin="chosen by railfault" if r["chosen"] else "as built (file)"))
+    return Table("wiring", "Wiring sheet (from railfault check)", [
+        Column("section", "section"), Column("feeder", "feeder", plain, True),
+        Column("device", "device"), Column("at_m", "at (from end a)", m_text, True),
+        Column("wire", "wire", csv=False),
+        Column("out1", f"{TERMINALS[0]} goes to"), Column("out2", f"{TERMINALS[1]} goes to"),
+        Column("leads", "leads"), Column("chosen", "chosen", page=False),
+        Column("origin", "orientation", csv=False)], out,
+        note="Rails are named as seen from the section's a end towards its b end. 'Chosen' "
+             "means the file gives no leads for the section and railfault wired it so that "
+             "its joints meet in phase (the check, the fault map and the run all use it): "
+             "wire it that way, or write the leads into the file.")
 
 
 def gap_table(scn, layout) -> Table:
@@ -295,10 +285,10 @@ def model_assumptions() -> list[dict]:
         {"key": "short threshold floor", "value": a_text(I_FLOOR_A), "source": "an assumption",
          "meaning": "a short path counts as a short only above the lowest sense or trip "
                     "threshold upstream, and at least this"},
-        {"key": "train power", "value": f"{POWER_FRACTION:.0%} of nominal voltage",
+        {"key": "train power", "value": f"{100 * POWER_FRACTION:.0f} % of nominal voltage",
          "source": "an assumption", "meaning": "a train runs while its rails carry at "
                                                "least this"},
-        {"key": "continuous rating share", "value": f"{RATING_SHARE:.0%}",
+        {"key": "continuous rating share", "value": f"{100 * RATING_SHARE:.0f} %",
          "source": "common practice", "meaning": "largest continuous rating as a share of "
                                                  "the weakest short current"},
         {"key": "keep-alive inrush", "value": "peak V/R for RC",

@@ -18,6 +18,7 @@ from __future__ import annotations
 
 import html
 import io
+import math
 import re
 from contextlib import contextmanager
 
@@ -72,6 +73,11 @@ _METADATA = re.compile(r"<metadata>.*?</metadata>\s*", re.S)
 _ID = re.compile(r'\bid="([^"]+)"')
 
 
+def _g(v: float) -> str:
+    """Up to 3 significant digits, never in exponent form (``1000``, not ``1e+03``)."""
+    return f"{v:,.0f}" if v >= 1000 else f"{v:.3g}"
+
+
 def t_label(v: float) -> str:
     """A tick label of a time axis with its unit (µs, ms, s)."""
     if v <= 0:
@@ -80,12 +86,12 @@ def t_label(v: float) -> str:
         return f"{v * 1e6:.3g} µs"
     if v < 1.0:
         return f"{v * 1e3:.3g} ms"
-    return f"{v:.3g} s"
+    return f"{_g(v)} s"
 
 
 def a_label(v: float) -> str:
     """A tick label of a current axis with its unit."""
-    return f"{v:.3g} A"
+    return f"{_g(v)} A"
 
 
 def log_axis(axis, label) -> None:
@@ -98,6 +104,23 @@ def log_axis(axis, label) -> None:
     axis.set_major_locator(LogLocator(base=10.0, subs=subs))
     axis.set_major_formatter(FuncFormatter(lambda v, _: label(v)))
     axis.set_minor_formatter(NullFormatter())
+
+
+def spread(values, min_gap: float, hi=None) -> list[float]:
+    """Label positions for ``values``, at least ``min_gap`` apart and each as near its
+    value as the ones below it allow; none above ``hi`` when given (then the top ones
+    are pushed down instead). Same scale as the values: pass logarithms for a log axis.
+    """
+    order = sorted(range(len(values)), key=lambda k: values[k])
+    out = [float(v) for v in values]
+    prev = -math.inf
+    for k in order:
+        out[k] = prev = max(out[k], prev + min_gap)
+    if hi is not None and order and out[order[-1]] > hi:
+        nxt = hi + min_gap
+        for k in reversed(order):
+            out[k] = nxt = min(out[k], nxt - min_gap)
+    return out
 
 
 def colour(k: int) -> str:

@@ -1,5 +1,7 @@
 """Tables of the report: raw values for the CSV, words with units for people.
 
+Numbers read as the run's text prints them (:mod:`sim.diagnose.text`: currents
+in A, durations in ms below 1 s, margins signed in ms, let-through in A²s).
 A :class:`Table` holds its rows as raw values (SI floats, names, ``None``); each
 :class:`Column` says how a value reads on the page and in the Markdown (with its
 unit) and names its CSV column (the unit in the name: ``margin_s``,
@@ -10,41 +12,25 @@ from __future__ import annotations
 
 import csv
 import io
+import json
 import math
 from dataclasses import dataclass, field
 from typing import Any, Callable, Optional
+
+from sim.diagnose.text import a2s_text, a_text, dur_text, signed_ms_text
+from sim.diagnose.text import ms_text as _ms_text
+
+__all__ = ["Column", "Table", "a2s_text", "a_text", "csv_value", "dur_text", "instant_text",
+           "m_text", "ms_text", "ohm_text", "plain", "t_text", "v_text"]
 
 
 def _finite(x) -> bool:
     return isinstance(x, (int, float)) and not isinstance(x, bool) and math.isfinite(x)
 
 
-def t_text(t_s: Optional[float]) -> str:
-    """An instant or duration: µs below 1 ms, ms below 1 s, else s."""
-    if not _finite(t_s):
-        return "-"
-    a = abs(t_s)
-    if a == 0.0:
-        return "0 s"
-    if a < 1e-3:
-        return f"{t_s * 1e6:.1f} µs"
-    if a < 1.0:
-        return f"{t_s * 1e3:.3f} ms"
-    return f"{t_s:.6f} s"
-
-
-def dur_text(t_s: Optional[float]) -> str:
-    """A duration to three significant decimals: µs, ms or s."""
-    if not _finite(t_s):
-        return "-"
-    a = abs(t_s)
-    if a == 0.0:
-        return "0 s"
-    if a < 1e-3:
-        return f"{t_s * 1e6:.1f} µs"
-    if a < 1.0:
-        return f"{t_s * 1e3:.3f} ms"
-    return f"{t_s:.3f} s"
+#: A duration or a setting in time: ms below 1 s, else s, three decimals (the run's own
+#: format, :func:`sim.diagnose.text.dur_text`).
+t_text = dur_text
 
 
 def instant_text(t_s: Optional[float]) -> str:
@@ -54,13 +40,7 @@ def instant_text(t_s: Optional[float]) -> str:
 
 def ms_text(t_s: Optional[float], signed: bool = False) -> str:
     """A time in ms, three decimals (a margin: ``signed``)."""
-    if not _finite(t_s):
-        return "-"
-    return f"{t_s * 1e3:+.3f} ms" if signed else f"{t_s * 1e3:.3f} ms"
-
-
-def a_text(i_a: Optional[float]) -> str:
-    return f"{i_a:.2f} A" if _finite(i_a) else "-"
+    return signed_ms_text(t_s) if signed else _ms_text(t_s)
 
 
 def v_text(v_v: Optional[float]) -> str:
@@ -73,10 +53,6 @@ def ohm_text(r: Optional[float]) -> str:
 
 def m_text(x_m: Optional[float]) -> str:
     return f"{x_m:.2f} m" if _finite(x_m) else "-"
-
-
-def a2s_text(x: Optional[float]) -> str:
-    return f"{x:.4g} A²s" if _finite(x) else "-"
 
 
 def plain(value: Any) -> str:
@@ -99,6 +75,9 @@ class Column:
     heading: str
     fmt: Callable[[Any], str] = plain
     numeric: bool = False
+    #: shown on the page and in the Markdown / written to the CSV
+    page: bool = True
+    csv: bool = True
 
 
 @dataclass
@@ -111,18 +90,32 @@ class Table:
     rows: list = field(default_factory=list)
     note: str = ""
 
+    @property
+    def page_columns(self) -> list:
+        """The columns shown on the page and in the Markdown."""
+        return [c for c in self.columns if c.page]
+
     def text_rows(self) -> list[list[str]]:
-        """Every row as the page shows it (strings with units)."""
-        return [[c.fmt(r.get(c.key)) for c in self.columns] for r in self.rows]
+        """Every row as the page shows it (strings with units), :attr:`page_columns`."""
+        cols = self.page_columns
+        return [[c.fmt(r.get(c.key)) for c in cols] for r in self.rows]
 
     def csv_text(self) -> str:
         """The rows as CSV: the column keys as header, floats at full precision."""
+        cols = [c for c in self.columns if c.csv]
         buf = io.StringIO()
         w = csv.writer(buf, lineterminator="\n")
-        w.writerow([c.key for c in self.columns])
+        w.writerow([c.key for c in cols])
         for r in self.rows:
-            w.writerow([csv_value(r.get(c.key)) for c in self.columns])
+            w.writerow([csv_value(r.get(c.key)) for c in cols])
         return buf.getvalue()
+
+    def view(self, keys, caption: str, note: Optional[str] = None) -> "Table":
+        """The same rows with only the columns ``keys`` (in that order) for a page table
+        (its own ``note`` when given); the CSV is written from the whole table."""
+        by_key = {c.key: c for c in self.columns}
+        return Table(self.key, caption, [by_key[k] for k in keys], self.rows,
+                     self.note if note is None else note)
 
     @property
     def filename(self) -> str:
@@ -130,7 +123,12 @@ class Table:
 
 
 def csv_value(v: Any) -> str:
-    """A raw value for the CSV: floats by ``repr`` (exact), ``None`` and non-finite empty."""
+    """A raw value for the CSV: floats by ``repr`` (exact), ``None`` and non-finite empty,
+    a mapping as JSON (its floats exact too)."""
+    if isinstance(v, dict):
+        return json.dumps({str(k): (x if not isinstance(x, float) or math.isfinite(x)
+                                    else None) for k, x in sorted(v.items())},
+                          ensure_ascii=False) if v else ""
     if v is None:
         return ""
     if isinstance(v, bool):

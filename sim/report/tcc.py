@@ -47,6 +47,7 @@ from sim.checks.coordination import (clear_time_s, earliest_trip_s, latest_trip_
 from sim.devices.curves import inverse_time_s
 from sim.devices.sensing import reading_a
 from sim.devices.thermal import trip_time_s
+from sim.model import Reverser
 
 #: Times below this are drawn at this level (a trip "at once" on log axes), s.
 T_FLOOR_S = 1e-5
@@ -56,6 +57,11 @@ T_CEIL_S = 1e4
 PER_DECADE = 64
 #: Charts drawn at most; the other paths are listed under the last one.
 MAX_CHARTS = 12
+
+
+def _thermal(dev):
+    """The thermal replica of a booster or breaker; a reverser has none."""
+    return None if isinstance(dev, Reverser) else dev.thermal
 
 
 @dataclass
@@ -167,7 +173,7 @@ def earliest_action_s(scn, name: str, i_a: float) -> float:
     times = []
     if not is_reversing(scn, name):
         times.append(trip_band(dev, i_a)[1])
-    thermal = getattr(dev, "thermal", None)
+    thermal = _thermal(dev)
     if thermal is not None and thermal.trip_at > 1.0:
         times.append(thermal_time(thermal, i_a, 1.0))
     return min(times) if times else math.inf
@@ -222,7 +228,7 @@ def signature(scn, path: tuple) -> tuple:
             extra = (dev.sense_reverse_a, dev.t_sense_reverse_s, dev.t_swap_s)
         sup = supply_of(scn, d)
         lim = scn.supplies[sup].i_limit_a if sup else math.inf
-        sig.append((scn.device_kind(d), dev.trip, sense, getattr(dev, "thermal", None),
+        sig.append((scn.device_kind(d), dev.trip, sense, _thermal(dev),
                     extra, lim))
     return tuple(sig)
 
@@ -277,7 +283,7 @@ def _curves_of(scn, name: str, grid: np.ndarray) -> list[Curve]:
         vals = np.array([trip_band(dev, i) for i in grid])
         out.append(Curve(name, "trip", label_trip(), grid, vals[:, 0], vals[:, 1], vals[:, 2],
                          dev.trip.i_above_a))
-    thermal = getattr(dev, "thermal", None)
+    thermal = _thermal(dev)
     if thermal is not None:
         cold = np.array([thermal_time(thermal, i, 0.0) for i in grid])
         out.append(Curve(name, "thermal-cold",
@@ -337,7 +343,7 @@ def build_charts(scn, layout, fm, windows) -> list[Chart]:
             thresholds.append(dev.trip.i_above_a)
             if d in scn.reversers:
                 thresholds.append(dev.sense_above_a)
-            if getattr(dev, "thermal", None) is not None:
+            if _thermal(dev) is not None:
                 thresholds.append(dev.thermal.i_rated_a * math.sqrt(dev.thermal.trip_at))
         sups = sorted({supply_of(scn, d) for d in path} - {None})
         limits = [scn.supplies[s].i_limit_a for s in sups

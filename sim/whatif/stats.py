@@ -82,8 +82,9 @@ def spearman(x: Sequence[float], y: Sequence[float]) -> Optional[float]:
 def prcc(xs: np.ndarray, y: Sequence[float]) -> list[Optional[float]]:
     """Partial rank correlation of each column of ``xs`` (samples x inputs) with ``y``.
 
-    ``None`` for an input that is constant, or when there are too few samples
-    (at most inputs + 2) for the regression to leave residuals.
+    ``None`` for an input that is constant, for every input when the output is
+    constant, or when there are too few samples (at most inputs + 2) for the
+    regression to leave residuals.
     """
     xs = np.asarray(xs, dtype=float)
     y = np.asarray(y, dtype=float)
@@ -92,6 +93,8 @@ def prcc(xs: np.ndarray, y: Sequence[float]) -> list[Optional[float]]:
         return [None] * m
     rx = np.column_stack([rankdata(xs[:, j]) for j in range(m)]) if m else xs
     ry = rankdata(y)
+    if np.ptp(ry) == 0.0:          # a constant output correlates with nothing
+        return [None] * m
     out: list[Optional[float]] = []
     for j in range(m):
         if np.ptp(rx[:, j]) == 0.0:

@@ -23,12 +23,14 @@ second row of an index impossible.
 
 A store made from another scenario text (another SHA-256), or with other sweep
 settings (seed, design, samples, the ``vary`` block), is refused with a message
-that says which.
+that says which. :meth:`Store.read` opens an existing store only to read it
+(the report's sweep section), refusing a file that is not a store.
 """
 from __future__ import annotations
 
 import json
 import os
+import pathlib
 import sqlite3
 from typing import Iterable, Optional
 
@@ -109,18 +111,56 @@ class Store:
         store._check(meta, scenario_sha256, settings, resume)
         return store
 
-    def _check(self, meta: dict, sha: str, settings: dict, resume: bool) -> None:
+    @classmethod
+    def read(cls, path: str) -> "Store":
+        """Open a store that ``railfault sweep`` made, to read it (``railfault report
+        --sweep``): never made here, nothing written to it.
+
+        Raises
+        ------
+        StoreError
+            No such file, or not a railfault sweep store.
+        """
+        path = os.fspath(path)
+        if not os.path.isfile(path):
+            raise StoreError(path, "no such sweep store (make one with: railfault sweep "
+                                   "FILE --store FILE.sqlite)")
+        uri = pathlib.Path(path).resolve().as_uri() + "?mode=rw"
+        try:
+            conn = sqlite3.connect(uri, uri=True, timeout=30.0, isolation_level=None)
+            tables = {r[0] for r in conn.execute(
+                "SELECT name FROM sqlite_master WHERE type='table'")}
+        except sqlite3.DatabaseError as exc:
+            raise StoreError(path, f"not a railfault sweep store (SQLite: {exc})") from None
+        store = cls(path, conn)
+        if tables != {"meta", "samples"}:
+            store.close()
+            raise StoreError(path, "not a railfault sweep store (its tables are not a "
+                                   "store's)")
+        store._check_format(store.meta())
+        return store
+
+    def _check_format(self, meta: dict) -> None:
         if meta.get("format") != STORE_FORMAT:
             self.close()
             raise StoreError(self.path, f"not a railfault sweep store (format "
                                         f"{meta.get('format')!r})")
+
+    def check_scenario(self, sha: str, remedy: str) -> None:
+        """Refuse (close and raise :class:`StoreError`) a store made from another
+        scenario text than the one whose SHA-256 is ``sha``; ``remedy`` ends the
+        message (what the user can do)."""
+        meta = self.meta()
         if meta.get("scenario_sha256") != sha:
             self.close()
             raise StoreError(self.path, f"this store was made from another scenario text "
                                         f"({meta.get('scenario_path')}, SHA-256 "
                                         f"{str(meta.get('scenario_sha256'))[:12]}...; this "
-                                        f"file's is {sha[:12]}...): give another --store, or "
-                                        f"remove this one to start again")
+                                        f"file's is {sha[:12]}...): {remedy}")
+
+    def _check(self, meta: dict, sha: str, settings: dict, resume: bool) -> None:
+        self._check_format(meta)
+        self.check_scenario(sha, "give another --store, or remove this one to start again")
         old = json.loads(meta.get("settings", "{}"))
         if old != json.loads(_dumps(settings)):
             diff = sorted(k for k in set(old) | set(settings) if old.get(k) != settings.get(k))
