@@ -80,7 +80,57 @@ from sim.world.geometry import ReversalPoint, RoutePath, build_route
 INF = math.inf
 
 __all__ = ["BridgeEvent", "BridgeEvents", "BridgeInterval", "BridgeSpan", "LoadPoint",
-           "Motion", "Position", "TrainPlan", "build_plan", "build_trains"]
+           "Motion", "POWER_FRACTION", "Position", "Stand", "TrainPlan", "build_plan",
+           "build_trains", "has_power"]
+
+#: A train has power when the voltage across a locomotive's pickups is at least this
+#: fraction of nominal (a decoder browns out at about half its rail voltage: our
+#: choice of threshold, not a published one).
+POWER_FRACTION = 0.5
+
+
+def has_power(load_v: Sequence[float], v_nominal_v: float) -> bool:
+    """Whether a train has power: the voltage at one of its locomotives' loads is at
+    least :data:`POWER_FRACTION` of ``v_nominal_v``.
+
+    A locomotive's pickup axles are joined electrically, so it draws from the
+    most live of the rails they touch. Its load sits at its draw point, between
+    its first and last pickup axle; while those axles stand on both sides of a
+    gapped joint the circuit joins them through the group's bridge, so the
+    voltage at the load is the voltage across the pickups (less the bridge's
+    drop at the locomotive's draw, a few millivolts) whichever district its
+    draw point is in, dark or not. Power is read from the circuit alone: a
+    section whose device is open has power exactly when wheels standing on it
+    feed it from a live one (a back-feed), as on a real layout.
+    """
+    lim = POWER_FRACTION * v_nominal_v
+    for v in load_v:
+        if (v if v >= 0.0 else -v) >= lim:
+            return True
+    return False
+
+
+@dataclass
+class Stand:
+    """A train standing still, without power, on wheels that bridge gapped joints.
+
+    From its ``stop`` at ``start_s`` to its ``go`` at ``end_s`` (``None``: it
+    still stands at the end of the run); ``joints`` names the joints its wheels
+    bridge as it stops (a train that stops stands on the bridges it reached).
+    """
+
+    train: str
+    start_s: float
+    end_s: Optional[float]
+    joints: tuple
+
+    def duration_s(self, t_end_s: float) -> float:
+        """How long it stood, up to ``t_end_s`` when it still stands."""
+        return (self.end_s if self.end_s is not None else t_end_s) - self.start_s
+
+    def as_dict(self) -> dict:
+        return {"train": self.train, "start_s": self.start_s, "end_s": self.end_s,
+                "joints": list(self.joints)}
 
 
 class Position(NamedTuple):
