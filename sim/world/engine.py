@@ -157,7 +157,7 @@ from sim.world.episodes import (EpisodeTracker, RailFlow, ShortPath, overrun_fin
                                 short_currents)
 from sim.world.processes import (Env, DeviceDriver, TrainRun, action_process, build_runs,
                                  fault_process)
-from sim.world.trains import POWER_FRACTION  # noqa: F401  (the power rule's, named here too)
+from sim.world.trains import POWER_FRACTION, stand_findings  # noqa: F401  (POWER_FRACTION: the power rule's, named here too)
 
 #: Device events after which the output closes on a discharged layout (inrush).
 INRUSH_EVENTS = frozenset({"restart", "reset", "thermal_resume"})
@@ -1116,7 +1116,10 @@ class World:
                 dark_s=dark,
                 peak_a=float(getattr(m, "peak_a", 0.0) or 0.0),
                 max_thermal=None if tm is None else float(tm))
+        stands = sorted((st for run in self.train_runs.values() for st in run.stands),
+                        key=lambda st: (st.start_s, st.train))
         findings = (list(self.findings) + overrun_findings(episodes)
+                    + stand_findings(stands, t_end)
                     + verdict_findings(episodes, self.scn.t_margin_required_s))
         scn = self.scn
         return Result(
@@ -1126,8 +1129,7 @@ class World:
             events=list(self.summary.events) if self.summary.keep_events else None,
             summary=self.summary, t_end_s=t_end,
             t_margin_required_s=scn.t_margin_required_s,
-            stands=sorted((st for run in self.train_runs.values() for st in run.stands),
-                          key=lambda st: (st.start_s, st.train)),
+            stands=stands,
             stats={"events": self.summary.n_events, "solves": self.n_solves,
                    "transitions": self.n_transitions, "topology": self.n_topology,
                    "cache_hits": self.n_cache_hits, "full_solves": self.n_full_solves,

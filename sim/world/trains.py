@@ -62,6 +62,12 @@ Building a plan is linear in (gapped joints on the route) x (conducting
 groups). Recomputing the instants after a speed change is a few vectorised
 array passes over the spans still ahead; the event records are made only
 when read (:class:`BridgeEvents`).
+
+Finding codes (this module)
+---------------------------
+RF-RUN-027 (warning, info) a train stood without power, its wheels bridging
+                           gapped joints, for :data:`T_STAND_REPORT_S` or
+                           longer (warning: still standing at the end).
 """
 from __future__ import annotations
 
@@ -73,7 +79,7 @@ from typing import NamedTuple, Optional
 import numpy as np
 
 from sim.errors import ScenarioError
-from sim.model import Scenario, Train
+from sim.model import Finding, Scenario, Train
 from sim.world.consist import METAL, Consist, ConductingGroup, consist_of
 from sim.world.geometry import ReversalPoint, RoutePath, build_route
 
@@ -81,7 +87,7 @@ INF = math.inf
 
 __all__ = ["BridgeEvent", "BridgeEvents", "BridgeInterval", "BridgeSpan", "LoadPoint",
            "Motion", "POWER_FRACTION", "Position", "Stand", "TrainPlan", "build_plan",
-           "build_trains", "has_power"]
+           "build_trains", "has_power", "stand_findings"]
 
 #: A train has power when the voltage across a locomotive's pickups is at least this
 #: fraction of nominal (a decoder browns out at about half its rail voltage: our
@@ -131,6 +137,33 @@ class Stand:
     def as_dict(self) -> dict:
         return {"train": self.train, "start_s": self.start_s, "end_s": self.end_s,
                 "joints": list(self.joints)}
+
+
+#: A stand across a gap shorter than this is the instant a short takes, shown by its
+#: episode; one this long or longer gets RF-RUN-027 (s; our choice, not a published value).
+T_STAND_REPORT_S = 1.0
+
+
+def stand_findings(stands: Sequence[Stand], t_end_s: float) -> list[Finding]:
+    """RF-RUN-027 for every stand of :data:`T_STAND_REPORT_S` or longer: a warning
+    when the train still stands at ``t_end_s`` (it never went on), else info."""
+    out = []
+    for st in stands:
+        dur_s = st.duration_s(t_end_s)
+        if dur_s < T_STAND_REPORT_S:
+            continue
+        still = st.end_s is None
+        gaps = ", ".join(st.joints)
+        msg = (f"train {st.train} stood without power across gap {gaps} for {dur_s:.3f} s "
+               f"(from {st.start_s:.6f} s; "
+               + ("still standing at the end of the run)" if still
+                  else f"went on at {st.end_s:.6f} s)"))
+        out.append(Finding(
+            "warning" if still else "info", "RF-RUN-027", st.train, msg,
+            "find what darkened the districts on both sides of the gap (the shorts and "
+            "dark districts reported for that time); the train goes on when one of them "
+            "has power again", first_s=st.start_s, last_s=st.start_s))
+    return out
 
 
 class Position(NamedTuple):
