@@ -7,12 +7,14 @@ beside each check.
 from __future__ import annotations
 
 from pathlib import Path
+from unittest import mock
 
 import pytest
 
 from sim.scenario import load, loads
 from sim.world import run
 from sim.world.episodes import RailFlow, ShortPath, short_currents
+from sim.world.processes import TrainRun
 
 HERE = Path(__file__).parent / "scenarios" / "run"
 
@@ -172,6 +174,24 @@ def test_locomotive_across_a_gap_keeps_power_from_the_live_side():
     assert (st.train, st.start_s, st.joints) == ("t1", pytest.approx(2.6), ("y.b~x.a",))
     assert st.end_s == pytest.approx(2.601, abs=1e-9)
     assert "RF-RUN-027" not in _codes(res)          # 1 ms: shorter than 1 s (our choice)
+
+
+def test_locomotive_load_across_a_gap_is_fed_through_its_pickups():
+    # the voltage its power check reads once y-cb has opened (2.601 s), header of
+    # stall-across-gap.yaml: load 16 V / 0.5 A = 32 ohm in series with 0.432 ohm,
+    # 16 V x 32 / 32.432 = 15.787 V (its draw point is in y, whose breaker is open)
+    seen = []
+    real = TrainRun.check_power
+
+    def spy(self, t_s, sol):
+        seen.append((t_s, dict(sol.load_v_v)))
+        return real(self, t_s, sol)
+
+    with mock.patch.object(TrainRun, "check_power", spy):
+        run(load(HERE / "stall-across-gap.yaml"), until_s=2.7)
+    after = [v for t, v in seen if t >= 2.601 - 1e-9]
+    assert after and abs(after[-1][("ld", "t1", 0)]) == pytest.approx(16.0 * 32 / 32.432,
+                                                                       rel=1e-4)
 
 
 def test_train_standing_on_a_gap_to_the_end_is_reported():

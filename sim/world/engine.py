@@ -157,7 +157,8 @@ from sim.world.episodes import (EpisodeTracker, RailFlow, ShortPath, overrun_fin
                                 short_currents)
 from sim.world.processes import (Env, DeviceDriver, TrainRun, action_process, build_runs,
                                  fault_process)
-from sim.world.trains import POWER_FRACTION, stand_findings  # noqa: F401  (POWER_FRACTION: the power rule's, named here too)
+# (POWER_FRACTION: the power rule's, in sim.world.trains; named here too for its readers)
+from sim.world.trains import POWER_FRACTION, stand_findings  # noqa: F401
 
 #: Device events after which the output closes on a discharged layout (inrush).
 INRUSH_EVENTS = frozenset({"restart", "reset", "thermal_resume"})
