@@ -13,7 +13,7 @@ import pytest
 
 from sim.scenario import load, loads
 from sim.world import run
-from sim.world.episodes import RailFlow, ShortPath, short_currents
+from sim.world.episodes import EpisodeTracker, RailFlow, ShortPath, short_currents
 from sim.world.processes import TrainRun
 
 HERE = Path(__file__).parent / "scenarios" / "run"
@@ -152,6 +152,27 @@ def test_supply_hiccup_is_one_episode_and_an_in_phase_car_no_short():
     # no second overload/dropout episode of psu: one row per hiccup
     assert not [e for e in res.episodes if e.kind != "fault"]
     assert res.event_log({"off"}, device="psu") == [(pytest.approx(1.002), "off")]
+
+
+def test_in_phase_car_carries_balancing_current_only():
+    # hiccup-once.yaml header: at 1 s the car carries south's share of the 6 A into the
+    # fault over each rail, 6 A x 0.042 / (0.042 + 0.322) = 0.692 A (over the 0.5 A
+    # floor), and the rule counts none of it as short current (n and s in phase)
+    seen = []
+    real = EpisodeTracker.solution
+
+    def spy(self, t_s, short_i_a, changed, close=True, rail_i_a=None, group_i_a=None):
+        seen.append((t_s, {p.where: r for p, r in (rail_i_a or {}).items()},
+                     dict(group_i_a or {})))
+        return real(self, t_s, short_i_a, changed, close=close, rail_i_a=rail_i_a,
+                    group_i_a=group_i_a)
+
+    with mock.patch.object(EpisodeTracker, "solution", spy):
+        run(load(HERE / "hiccup-once.yaml"), until_s=1.001)
+    (rails, groups), = [(r, g) for t, r, g in seen if t == pytest.approx(1.0)][-1:]
+    assert rails["n.b~s.a"] == pytest.approx((6 * 0.042 / 0.364,) * 2, rel=1e-6)
+    assert groups[("train", "parked")] == 0.0
+    assert groups[("fault", 0)] == pytest.approx(6.0, rel=1e-9)
 
 
 # ----------------------------------------- Critical 2: a train's power across a gap
