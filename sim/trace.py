@@ -286,7 +286,9 @@ class Result:
     with a finding saying so). ``stats`` holds engine counters (events
     handled, solves) and ``event_budget``, the most engine events the run
     could take. ``headline`` lists the worst problems first, one line per
-    cause (filled by the run's diagnosis).
+    cause (filled by the run's diagnosis). ``stands`` lists the trains that
+    stopped without power while their wheels bridged gapped joints
+    (:class:`sim.world.trains.Stand`: train, start, end or ``None``, joints).
     """
 
     title: str
@@ -304,6 +306,9 @@ class Result:
     t_margin_required_s: float = 0.0
     stats: dict = field(default_factory=dict)
     headline: list = field(default_factory=list)
+    #: Trains that stopped without power on wheels bridging gapped joints
+    #: (``sim.world.trains.Stand``), by start.
+    stands: list = field(default_factory=list)
 
     @property
     def passed(self) -> bool:
@@ -333,6 +338,7 @@ class Result:
             "headline": list(self.headline),
             "t_end_s": _num(self.t_end_s),
             "event_budget": self.stats.get("event_budget"),
+            "stands": [_clean(s.as_dict()) for s in self.stands],
         }
         if self.events is not None:
             d["events"] = [e.as_dict() for e in self.events]

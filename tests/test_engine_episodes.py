@@ -322,7 +322,8 @@ def test_result_json_contract():
     d = json.loads(json.dumps(res.as_dict(), allow_nan=False))
     assert d["format"] == "railfault-result/1"
     assert set(d) == {"format", "scenario", "seed", "duration_s", "verdict", "findings",
-                      "episodes", "devices", "events", "headline", "t_end_s", "event_budget"}
+                      "episodes", "devices", "events", "headline", "t_end_s", "event_budget",
+                      "stands"}
     assert set(d["episodes"][0]) == {"start_s", "end_s", "kind", "where", "train", "peak_a",
                                      "outcome", "acted", "acted_s", "margins", "margin_s",
                                      "paths_a", "devices", "tripped", "i2t_a2s"}

@@ -119,8 +119,15 @@ def test_thermal_trip_and_resume_follow_iec_60255_149():
     got = [t for t, e in res.event_log({"thermal_trip", "thermal_resume"})]
     assert got[:3] == pytest.approx([t_trip, t_res, t_trip2], abs=1e-9)
     assert res.devices["east"].max_thermal == pytest.approx(1.2, abs=1e-6)
-    assert [ep.kind for ep in res.episodes] == ["overload", "overload"]
-    assert res.episodes[0].start_s == pytest.approx(0.5, abs=1e-12)   # over rated from the fault
+    # the 4 ohm fault is a short by definition (under the 10 A trip): an episode from
+    # its onset while east conducts, each ended by a thermal trip, the last by the
+    # fault's end at 0.5 + 2 = 2.5 s, east having resumed at t_trip2 + tau ln 2
+    t_res2 = t_trip2 + tau * math.log(1.2 / 0.6)
+    assert [(ep.kind, ep.outcome) for ep in res.episodes] == [
+        ("fault", "tripped"), ("fault", "tripped"), ("fault", "clean")]
+    # (crossings on the 1 ns grid, three in a row: within 2 ns)
+    assert [ep.start_s for ep in res.episodes] == pytest.approx([0.5, t_res, t_res2], abs=2e-9)
+    assert [ep.end_s for ep in res.episodes] == pytest.approx([t_trip, t_trip2, 2.5], abs=2e-9)
 
 
 def test_shared_supply_collapse_takes_both_boosters_down():

@@ -105,8 +105,10 @@ the EMF of the supply at the top of its feed chain) placed at the middle of
 the section its locomotive is in; it moves when the locomotive enters another
 section (at the train's bridge events). Bridges come from the closed-form
 intervals of :mod:`sim.world.trains`. A train has power when the voltage at
-its load is at least :data:`POWER_FRACTION` of nominal and its feeding
-device is closed; without power it stops once its keep-alive has run out
+one of its locomotives' loads is at least :data:`POWER_FRACTION` of nominal
+(:func:`sim.world.trains.has_power`: the load is joined to every rail its
+pickups touch, through its bridge while it straddles a gap, whatever device
+feeds the section its draw point is in); without power it stops once its keep-alive has run out
 (it stands where it is, keeping the bridges it stands on - also one it
 reached at the very instant it stopped: a locomotive without keep-alive whose
 own bridge takes its power stands on that bridge) and goes on when power
@@ -151,15 +153,16 @@ from sim.circuit.network import KirchhoffError
 from sim.model import Finding, Scenario
 from sim.trace import (DeviceSummary, Event, EventSummary, Result, decide, verdict_findings,
                        SUPPLY_TRIP_EVENTS, TRIP_EVENTS)
-from sim.world.episodes import EpisodeTracker, ShortPath, overrun_findings
+from sim.world.episodes import (EpisodeTracker, RailFlow, ShortPath, overrun_findings,
+                                short_currents)
 from sim.world.processes import (Env, DeviceDriver, TrainRun, action_process, build_runs,
                                  fault_process)
+# (POWER_FRACTION: the power rule's, in sim.world.trains; named here too for its readers)
+from sim.world.trains import POWER_FRACTION, stand_findings  # noqa: F401
 
 #: Device events after which the output closes on a discharged layout (inrush).
 INRUSH_EVENTS = frozenset({"restart", "reset", "thermal_resume"})
 
-#: A train has power when its rails carry at least this fraction of nominal voltage.
-POWER_FRACTION = 0.5
 #: Relative change of a current below which a device is not told again.
 I_REL_TOL = 1e-9
 #: Relative change of a supply voltage below which its boosters are not told again.
@@ -254,6 +257,8 @@ class World:
         self._dark_s: dict[str, float] = {n: 0.0 for n in self.drivers}
         self._out: dict[str, tuple] = {}
         self.paths: dict = {}                 # circuit key -> ShortPath (existing paths)
+        self._path_comps: dict = {}           # circuit key -> rail components it joins
+        self._sides = None                    # sim.world.sides.Sides, made when first needed
         self.joint_paths: dict = {}           # joint index -> (name, devices feeding it)
         self._osc_t = -1.0                    # instant of the output-change counts
         self._osc_n: dict[str, int] = {}      # device -> output changes at that instant
@@ -276,7 +281,9 @@ class World:
                                       supplies=self.supply_names,
                                       trip_threshold_a=self._thr_dev,
                                       allow_s=self._allow, rated_a=rated,
-                                      supply_of=supply_of, order=self.order)
+                                      supply_of=supply_of, order=self.order,
+                                      t_dead_s={n: scn.reversers[n].t_dead_s
+                                                for n in scn.reversers})
         self.findings: list[Finding] = []
         self._init_trains(plans)
         self.traces = traces                  # opt-in recorder (sim.world.traces)
@@ -416,22 +423,8 @@ class World:
         """Check this train's power after the next solve (its load moved)."""
         self._check_trains.add(name)
 
-    def record_train(self, t_s: float, name: str, event: str) -> None:
-        self.record(Event(t_s, name, event))
-
-    def output_closed(self, dev: str) -> bool:
-        """Whether a device's output (or a supply) conducts, as last applied."""
-        st = self._out.get(dev)
-        return True if st is None else bool(st[0])
-
-    def chain_closed(self, chain) -> bool:
-        """Whether every device of a feed chain conducts (``output_closed`` of each)."""
-        out = self._out
-        for dev in chain:
-            st = out.get(dev)
-            if st is not None and not st[0]:
-                return False
-        return True
+    def record_train(self, t_s: float, name: str, event: str, data=None) -> None:
+        self.record(Event(t_s, name, event) if data is None else Event(t_s, name, event, data))
 
     # ------------------------------------------------ circuit state (cheap)
     def _digest(self, item) -> int:
@@ -829,7 +822,7 @@ class World:
         prev = self._sol
         self._sol = sol
         if self.traces is not None:
-            self.traces.solution(t, sol, self._short_currents(sol)[0] if self.paths else None)
+            self.traces.solution(t, sol, self._trace_currents(sol) if self.paths else None)
         if prev is None:
             for f in getattr(sol, "findings", ()) or ():
                 if isinstance(f, Finding):
@@ -885,8 +878,9 @@ class World:
                 changed.update(sup_changed)
         # short paths -> episodes (closing waits for the settled instant)
         if self.paths or self.tracker.open_count:
-            currents, rails = self._short_currents(sol)
-            for e in self.tracker.solution(t, currents, changed, close=False, rail_i_a=rails):
+            currents, rails, groups = self._short_currents(sol)
+            for e in self.tracker.solution(t, currents, changed, close=False, rail_i_a=rails,
+                                           group_i_a=groups):
                 self.record(e)
             # the closing call once the instant settles (same currents) can only
             # close an open episode whose paths carry no short current now
@@ -908,36 +902,66 @@ class World:
                     runs[tr].check_power(t, sol)
 
     def _short_currents(self, sol) -> tuple:
-        """``({ShortPath: I}, {ShortPath: per-rail I})`` of every existing short path.
-
-        ``I`` is the magnitude of a fault's current, or the sum of a bridge's
-        current over each rail it joins (what a device feeding it carries);
-        the per-rail currents are given for the bridges. The paths that exist
-        are part of the circuit state (their bridges and fault shorts are items
-        of it, and a path's record depends on its key only), so the currents
-        are kept per state key beside its cached solution and made once per
-        state.
+        """``({ShortPath: I}, {ShortPath: per-rail I}, {group: I})`` of every
+        existing short path: the short current of each path and group by the
+        rule of :func:`sim.world.episodes.short_currents` (the sides each rail
+        joins, :mod:`sim.world.sides`), and each bridge's current over each rail
+        it joins. The paths that exist and the device outputs are part of the
+        circuit state, so the currents are kept per state key beside its cached
+        solution and made once per state.
         """
         ent = self._cache.get(self._sol_key)
         if ent is not None and ent[0] is not sol:
             ent = None
         if ent is not None and ent[1] is not None:
             return ent[1]
+        sides = self._sides
+        if sides is None:
+            from sim.world.sides import Sides
+            sides = self._sides = Sides(self.circuit.topo)
+        from sim.world.sides import output_reader
+        output = output_reader(self._out)
+        f_open = self.circuit.feeders_open
+        memo: dict = {}
         br = sol.bridge_rail_i_a
         si = sol.short_i_a
-        currents = {}
+        flows = {}
         rails = {}
         for k, path in self.paths.items():
+            comps = self._path_comps.get(k)
+            if comps is None:
+                comps = self._path_comps[k] = self._comps_of(sides, k, path)
             if path.kind == "fault":
                 i = si.get(k, 0.0)
-                currents[path] = i if i >= 0.0 else -i
+                r = (i if i >= 0.0 else -i,)
             else:
-                r = br.get(k, (0.0,))
+                r = br.get(k, (0.0,) * len(comps))
                 rails[path] = r
-                currents[path] = sum(r)
-        out = (currents, rails)
+            flows[path] = [RailFlow(i, sides.side(cx, output, f_open, memo),
+                                    sides.side(cy, output, f_open, memo))
+                           for i, (cx, cy) in zip(r, comps)]
+        currents, groups = short_currents(flows)
+        out = (currents, rails, groups)
         if ent is not None:
             ent[1] = out
+        return out
+
+    def _comps_of(self, sides, key, path) -> tuple:
+        """The static rail components each rail of a short path joins."""
+        if path.kind == "fault":
+            return (sides.section_rails(self.scn.faults[key[1]].section),)
+        return sides.joint_rails(key[3], path.rails)
+
+    def _trace_currents(self, sol) -> dict:
+        """For the trace recorder: one path of each group with the group's short
+        current (the recorder sums its paths per group)."""
+        currents, _, groups = self._short_currents(sol)
+        out: dict = {}
+        seen: set = set()
+        for path in currents:
+            if path.group not in seen:
+                seen.add(path.group)
+                out[path] = groups.get(path.group, 0.0)
         return out
 
     # ------------------------------------------------------- device output
@@ -988,7 +1012,7 @@ class World:
         if closed and not old[0] and inrush:
             tau_max = 0.0
             for run in sorted(self.trains_on.get(name, ())):
-                tau_max = max(tau_max, self.train_runs[run].inrush(t))
+                tau_max = max(tau_max, self.train_runs[run].inrush(t, name))
             if tau_max > 0.0:
                 self._inrush_until[name] = t + tau_max
 
@@ -1093,7 +1117,10 @@ class World:
                 dark_s=dark,
                 peak_a=float(getattr(m, "peak_a", 0.0) or 0.0),
                 max_thermal=None if tm is None else float(tm))
+        stands = sorted((st for run in self.train_runs.values() for st in run.stands),
+                        key=lambda st: (st.start_s, st.train))
         findings = (list(self.findings) + overrun_findings(episodes)
+                    + stand_findings(stands, t_end)
                     + verdict_findings(episodes, self.scn.t_margin_required_s))
         scn = self.scn
         return Result(
@@ -1103,6 +1130,7 @@ class World:
             events=list(self.summary.events) if self.summary.keep_events else None,
             summary=self.summary, t_end_s=t_end,
             t_margin_required_s=scn.t_margin_required_s,
+            stands=stands,
             stats={"events": self.summary.n_events, "solves": self.n_solves,
                    "transitions": self.n_transitions, "topology": self.n_topology,
                    "cache_hits": self.n_cache_hits, "full_solves": self.n_full_solves,

@@ -22,22 +22,41 @@ Rules (summarised in DEVELOPERS.md, "Episodes")
   devices that feed it, the feed chains of the sections on both sides, from
   the track upwards. Paths are grouped: all the bridges of one train form one
   group (a train that moves its short from one end of a reversing section to
-  the other by a swap keeps one episode), each fault is its own group. The
-  current of a group, ``I_G``, is the sum over its paths of the current over
-  each of their rails: a bridge over a joint gapped on both rails carries the
-  short through both at once, and a device feeding it carries their sum.
-* **Onset: what each device carries.** A group's episode opens when some
-  device ``d`` of its paths carries more than its own threshold ``T_d`` -
+  the other by a swap keeps one episode), each fault is its own group.
+* **Short current** (:func:`short_currents`). A fault is a short by
+  definition: its current is its short current. A train's bridges carry a
+  short only where they drive current from one side of a source to the other:
+  each rail a bridge joins has a *side* (:mod:`sim.world.sides`: ``+`` or
+  ``0`` of a supply through the device outputs of the moment, or dark). A
+  bridge joining ``+`` to ``0`` counts its current at both sides; one joining
+  two rails of the same side (districts in phase) carries only balancing
+  current and counts nothing; one joining a live rail to a dark one counts only
+  when that dark rail (with the dark rails a fault joins to it) is reached
+  from both sides of a source - otherwise it is a train's load fed back into a
+  dark district, not a short. The group's current ``I_G`` is the most counted
+  at one side: the two rails of a bridge over a joint gapped on both rails
+  that form one series loop (two isolated supplies) count once, two parallel
+  paths from ``+`` to ``0`` (both rails into one supply) add, and ``I_G``
+  never exceeds what a supply delivers.
+* **Onset: what each device carries.** A fault's episode opens when its
+  current exceeds :data:`I_FLOOR_A` (0.5 A), whatever the devices do: a fault
+  under every trip level is an episode from its onset and, still flowing at
+  the end, ``unresolved``. A train's group opens an episode when some device ``d`` of its paths
+  carries more than its own threshold ``T_d`` -
   its sense level (the lower of its swap sense level and its trip level), or
   for a supply its current limit (a supply at its limit carries exactly the
   limit) - *because of the short*: ``I_d > T_d`` and ``I_d - I_G <= T_d``
   (without the group's current the device would not be over its threshold,
   so a bridge carrying a small balancing current beside an overloaded booster
-  is no short), with ``I_G > I_FLOOR_A`` (0.5 A).
+  is no short), with ``I_G > I_FLOOR_A``.
 * **End.** The episode ends when the short current stops: when ``I_G`` is at
   or under :data:`I_FLOOR_A` once the instant has settled (a short that
   vanishes and returns between two devices acting at one instant stays one
-  episode). ``end_s`` is that instant, ``None`` when it still flows at the end.
+  episode). ``end_s`` is that instant, ``None`` when it still flows at the
+  end. When the current stopped at a swap, the episode stays open through the
+  swapping device's dead time (the short may come back at the reclose, moved
+  to the other end of its section, and is then the same episode) but
+  ``end_s`` is still the instant the current stopped, not the reclose.
 * **Figures.** ``peak_a`` is the largest ``I_G`` (the figure an upstream device
   sees); ``paths_a`` the largest current of each rail path (``"joint (left
   rail)"``, a fault by its place); ``i2t_a2s`` the let-through ``integral
@@ -66,12 +85,15 @@ Rules (summarised in DEVELOPERS.md, "Episodes")
   the episode gone on (``None``: never, no margin). ``margin_s`` is the least.
   An ``unresolved`` episode has no margins: its swaps did not clear it.
 * **Overload episodes** (kind ``overload``, ``where`` the device): a trip of
-  a device (overcurrent, thermal, a supply switching off) that no open episode
+  a device (overcurrent, thermal, a supply switching off) that no episode
   holds, from when its current last rose over its trip level (its thermal
   rated current for a thermal trip; a supply: its limit) to the trip; a
-  booster's dropout that no open episode holds, as a ``dropout`` episode of
+  booster's dropout that no episode holds, as a ``dropout`` episode of
   its supply from when the supply reached its limit; and a let-through
-  (below) that no episode holds.
+  (below) that no episode holds. A trip that ends a run over the trip level
+  begun in an episode already closed, and a booster's dropout while its supply
+  is switched off by an episode, belong to that episode (one hiccup is counted
+  once).
 * **Let-through over the trip level.** A protective device is *over* while it
   carries more than its trip level. An over run longer than the device's
   longest definite delay (``t_allow_s``: the trip delay, a sampled sensor's
@@ -113,6 +135,9 @@ TRIPPING = frozenset({"trip", "thermal_trip", "off", "dropout"})
 DETECTING = frozenset({"detect", "swap_start"})
 #: Device events that count as a swap in an episode.
 SWAPPING = frozenset({"swapped"})
+#: Device events after which an output conducts again (a swap's dead time over; a
+#: supply on again, or reset).
+RECLOSING = frozenset({"reclose", "on", "reset"})
 #: What ``solution`` returns when it opened and closed nothing (shared, empty).
 _NO_EVENTS: tuple = ()
 _NO_GROUPS: dict = {}
@@ -162,11 +187,104 @@ class Overrun(NamedTuple):
     still: bool          # still over at the end of the run
 
 
+class RailFlow(NamedTuple):
+    """The current over one rail of a short path and the sides it joins.
+
+    ``i_a`` is the magnitude of the current; ``side_x`` and ``side_y`` are the
+    sides of the two rails it joins (:mod:`sim.world.sides`: ``("+", supply)``,
+    ``("0", supply)`` or ``("dark", ...)``). A fault joins its section's left
+    rail to its right rail.
+    """
+
+    i_a: float
+    side_x: Hashable
+    side_y: Hashable
+
+
+def _live(side) -> bool:
+    return side[0] != "dark"
+
+
+def short_currents(flows: Mapping[ShortPath, Sequence[RailFlow]]
+                   ) -> tuple[dict, dict]:
+    """The short current of every path and every group (module notes, "Short current").
+
+    Parameters
+    ----------
+    flows
+        Per existing short path, one :class:`RailFlow` per rail it joins (a fault:
+        one, its current from rail to rail).
+
+    Returns
+    -------
+    (per_path, per_group)
+        ``{ShortPath: A}`` and ``{group: A}``: a fault's own current; for the
+        bridges of a train, the most current driven from one side of a source
+        to the other through them, counted at each side (``+`` and ``0`` of
+        each supply) it reaches; see the module notes.
+    """
+    # dark rails joined by a fault carrying current are one conductor ("cluster")
+    parent: dict = {}
+
+    def find(x):
+        root = x
+        while parent.get(root, root) != root:
+            root = parent[root]
+        while x != root:
+            parent[x], x = root, parent.get(x, x)
+        return root
+
+    reach: list = []                       # (live side, dark side) joined by a short element
+    for path, fl in flows.items():
+        for i, sx, sy in fl:
+            lx, ly = _live(sx), _live(sy)
+            if path.kind == "fault":
+                if i <= I_FLOOR_A:
+                    continue
+                if not lx and not ly:
+                    rx, ry = find(sx), find(sy)
+                    if rx != ry:
+                        parent[rx] = ry
+                    continue
+            if lx != ly:
+                reach.append((sx, sy) if lx else (sy, sx))
+    # a dark cluster reached from both sides of a source conducts a short
+    signs: dict = {}
+    for live, dark in reach:
+        signs.setdefault(find(dark), set()).add(live[0])
+    shorted = {c for c, sg in signs.items() if len(sg) > 1}
+    per_path: dict = {}
+    acc_group: dict = {}
+    for path, fl in flows.items():
+        g = acc_group.setdefault(path.group, {})
+        if path.kind == "fault":
+            i = sum(f.i_a for f in fl)
+            per_path[path] = i
+            g[None] = g.get(None, 0.0) + i
+            continue
+        acc: dict = {}
+        for i, sx, sy in fl:
+            lx, ly = _live(sx), _live(sy)
+            if lx and ly:
+                if sx[0] != sy[0]:                    # + to 0: across the source
+                    acc[sx] = acc.get(sx, 0.0) + i
+                    acc[sy] = acc.get(sy, 0.0) + i
+            elif lx and shorted and find(sy) in shorted:     # into a dark short
+                acc[sx] = acc.get(sx, 0.0) + i
+            elif ly and shorted and find(sx) in shorted:
+                acc[sy] = acc.get(sy, 0.0) + i
+        per_path[path] = max(acc.values()) if acc else 0.0
+        for sd, v in acc.items():
+            g[sd] = g.get(sd, 0.0) + v
+    per_group = {g: (max(a.values()) if a else 0.0) for g, a in acc_group.items()}
+    return per_path, per_group
+
+
 class _Open:
     """The bookkeeping of one open short episode (slotted: read on every solve)."""
 
     __slots__ = ("ep", "devs", "would_s", "detect", "interrupt", "acts", "swaps",
-                 "i_last", "t_last", "i2t", "paths", "forced", "keys")
+                 "i_last", "t_last", "i2t", "paths", "forced", "keys", "dead", "quiet_s")
 
     def __init__(self, ep: Episode, t_s: float):
         self.ep = ep
@@ -182,6 +300,8 @@ class _Open:
         self.paths: dict = {}             # rail path name -> peak A
         self.forced = ""                  # the guard's note, when it stepped in
         self.keys: set = set()            # keys of the paths whose devices have joined
+        self.dead: dict = {}              # swapping device -> reclose instant (dead time)
+        self.quiet_s: Optional[float] = None   # when its current stopped, close deferred
 
 
 class _Over:
@@ -227,6 +347,10 @@ class EpisodeTracker:
         Per booster, its supply (``acted`` of a dropout).
     order:
         Every device in the order "from the track upwards" (``devices``).
+    t_dead_s:
+        Per swapping device, its dead time (its output open after a swap): an
+        episode whose current stops at a swap waits for the reclose before it
+        closes (module notes, "End").
     """
 
     def __init__(self, would_trip: Callable[[str, float, float], Optional[float]],
@@ -237,8 +361,10 @@ class EpisodeTracker:
                  allow_s: Optional[Mapping[str, float]] = None,
                  rated_a: Optional[Mapping[str, float]] = None,
                  supply_of: Optional[Mapping[str, str]] = None,
-                 order: Sequence[str] = ()):
+                 order: Sequence[str] = (),
+                 t_dead_s: Optional[Mapping[str, float]] = None):
         self._would_trip = would_trip
+        self._t_dead = {d: v for d, v in (t_dead_s or {}).items() if v > 0.0}
         self._t_swap_s = t_swap_s
         self._supplies = frozenset(supplies)
         sense = dict(sense_threshold_a or {})
@@ -263,6 +389,7 @@ class EpisodeTracker:
         self._trip_ep: dict[str, Episode] = {}  # device -> overload episode of its last trip
         self._tripped_s: dict[str, float] = {}  # device -> its last trip instant
         self._dropout_ep: dict[str, Episode] = {}   # supply -> its last dropout episode
+        self._off_ep: dict[str, Episode] = {}   # supply switched off -> the episode holding it
         self._seq = 0
         #: Whether an open episode had no path carrying short current in the last
         #: ``solution``: only then can a closing call with the same currents close one.
@@ -272,18 +399,20 @@ class EpisodeTracker:
     # ---------------------------------------------------------------- facts
     def solution(self, t_s: float, short_i_a: Mapping[ShortPath, float],
                  changed: Mapping[str, float], close: bool = True,
-                 rail_i_a: Optional[Mapping[ShortPath, tuple]] = None) -> list[Event]:
+                 rail_i_a: Optional[Mapping[ShortPath, tuple]] = None,
+                 group_i_a: Optional[Mapping[Hashable, float]] = None) -> list[Event]:
         """Feed one solve: short-path currents and the changed device currents.
 
-        ``short_i_a`` holds every existing short path with its current (the sum
-        over its rails of their magnitudes); ``rail_i_a`` the magnitude over each
-        rail (``ShortPath.rails`` order), for ``paths_a`` (a path without it
-        is entered by its place, with its total). ``changed`` is the new current of each
-        device whose current changed. With ``close`` False (a solve in the middle
-        of an instant, between two devices acting at it) no episode is closed;
-        the engine makes a last call with ``close`` True, or
-        :meth:`close_settled`, once the instant has settled. Returns the
-        ``short`` / ``cleared`` events it opened or closed.
+        ``short_i_a`` holds every existing short path with its short current
+        (:func:`short_currents`); ``group_i_a`` the short current of each group
+        (without it, a group's current is the sum over its paths); ``rail_i_a``
+        the magnitude over each rail (``ShortPath.rails`` order), for
+        ``paths_a`` (a path without it is entered by its place, with its total).
+        ``changed`` is the new current of each device whose current changed.
+        With ``close`` False (a solve in the middle of an instant, between two
+        devices acting at it) no episode is closed; the engine makes a last call
+        with ``close`` True, or :meth:`close_settled`, once the instant has
+        settled. Returns the ``short`` / ``cleared`` events it opened or closed.
         """
         if changed:
             self._account(t_s, changed)
@@ -294,14 +423,29 @@ class EpisodeTracker:
             return _NO_EVENTS
         # currents per group: group -> [paths above the floor, I_G]
         groups: dict[Hashable, list] = {}
-        for path, i in short_i_a.items():
-            if i > I_FLOOR_A:
+        if group_i_a is None:
+            for path, i in short_i_a.items():
+                if i > I_FLOOR_A:
+                    g = groups.get(path.group)
+                    if g is None:
+                        groups[path.group] = [[path], i]
+                    else:
+                        g[0].append(path)
+                        g[1] += i
+        else:
+            for path, i in short_i_a.items():
+                i_g = group_i_a.get(path.group, 0.0)
+                if i_g <= I_FLOOR_A or i <= 0.0:
+                    continue
                 g = groups.get(path.group)
                 if g is None:
-                    groups[path.group] = [[path], i]
+                    groups[path.group] = [[path], i_g]
                 else:
                     g[0].append(path)
-                    g[1] += i
+            for g in groups.values():       # the paths that carry it (the largest, at least)
+                if len(g[0]) > 1:
+                    top = max(g[0], key=lambda p: (short_i_a[p], str(p.where)))
+                    g[0] = [p for p in g[0] if short_i_a[p] > I_FLOOR_A or p is top]
         for op in opened.values():          # I^2 t of the open episodes, to t_s
             if t_s > op.t_last:
                 op.i2t += op.i_last * op.i_last * (t_s - op.t_last)
@@ -325,6 +469,7 @@ class EpisodeTracker:
             elif i_g > op.ep.peak_a:
                 op.ep.peak_a = i_g
             op.i_last = i_g
+            op.quiet_s = None
             live[gkey] = True
             rails = rail_i_a or _NO_RAILS
             for path in paths:
@@ -370,21 +515,46 @@ class EpisodeTracker:
                 for op in self._involving(ev.device):
                     op.detect.setdefault(ev.device, ev.t_s)
         elif kind in SWAPPING:
+            t_dead = self._t_dead.get(ev.device)
             for op in self._involving(ev.device):
                 op.swaps.append((ev.t_s, ev.device))
+                if t_dead is not None:
+                    op.dead[ev.device] = ev.t_s + t_dead
         elif kind in TRIPPING:
             self._seq += 1
-            ops = self._involving(ev.device)
-            if not ops and kind == "dropout" and ev.device in self._supply_of:
+            d, t = ev.device, ev.t_s
+            ops = self._involving(d)
+            if not ops and kind == "dropout" and d in self._supply_of:
                 # a booster beside the short, on the same supply: its dropout
-                # follows from the episode that holds the supply
-                ops = self._involving(self._supply_of[ev.device])
+                # follows from the episode that holds the supply, or from the
+                # supply's switching off
+                sup = self._supply_of[d]
+                ops = self._involving(sup)
+                if not ops:
+                    ep = self._off_ep.get(sup)
+                    if ep is not None:
+                        self._attach(ep, d, t)
+                        return
             for op in ops:
-                op.acts.append((ev.t_s, self._seq, ev.device, kind))
+                op.acts.append((t, self._seq, d, kind))
             if kind != "dropout":
-                self._tripped_s[ev.device] = ev.t_s
-            if not ops:
-                self._overload(ev)
+                self._tripped_s[d] = t
+            if ops:
+                if kind == "off":
+                    self._off_ep[d] = ops[0].ep
+                return
+            ep = self._late(self._supply_of.get(d, d) if kind == "dropout" else d)
+            if ep is not None:
+                self._attach(ep, d, t)
+            else:
+                ep = self._overload(ev)
+            if kind == "off":
+                self._off_ep[d] = ep
+        elif kind in RECLOSING:
+            for op in self._involving(ev.device):
+                op.dead.pop(ev.device, None)
+            if kind != "reclose":
+                self._off_ep.pop(ev.device, None)
 
     def interrupt(self, t_s: float, device: str) -> None:
         """A swapping device opened or exchanged its leads at ``t_s``."""
@@ -419,8 +589,9 @@ class EpisodeTracker:
             self._end_over(d, t_end_s, still=True)
         for gkey in list(self._open):
             op = self._open.pop(gkey)
-            op.ep.end_s = None
-            self._finish(op, still_open=True)
+            # (one whose current stopped at a swap, waiting for the reclose: closed)
+            op.ep.end_s = op.quiet_s
+            self._finish(op, still_open=op.quiet_s is None)
         return sorted(self._done, key=lambda e: (e.start_s, e.where))
 
     def involved(self, device: str) -> bool:
@@ -490,16 +661,15 @@ class EpisodeTracker:
             self._done.append(ep)
         ep.overruns.append(rec)
 
-    def _overload(self, ev: Event) -> None:
-        """A trip, switch-off or dropout that no open episode holds: an overload episode."""
+    def _overload(self, ev: Event) -> Episode:
+        """A trip, switch-off or dropout that no episode holds: an overload episode."""
         d, t = ev.device, ev.t_s
         if ev.event == "dropout":
             sup = self._supply_of.get(d, d)
             ep = self._dropout_ep.get(sup)
             if ep is not None and ep.acted_s == t:          # another booster, same instant
-                ep.tripped.setdefault(d, t)
-                ep.devices = self._ordered(set(ep.devices) | {d})
-                return
+                self._attach(ep, d, t)
+                return ep
             ov = self._over.get(sup)
             t0, f0, peak = ((ov.t0, ov.f0, ov.peak) if ov is not None
                             else (t, self._i2t_to(sup, t), self._dev_i.get(sup, 0.0)))
@@ -509,7 +679,7 @@ class EpisodeTracker:
                          i2t_a2s=self._i2t_to(sup, t) - f0)
             self._dropout_ep[sup] = ep
             self._done.append(ep)
-            return
+            return ep
         if ev.event == "thermal_trip" and d in self._rose_th:
             t0, f0 = self._rose_th[d]
             peak = self._dev_i.get(d, 0.0)
@@ -523,11 +693,16 @@ class EpisodeTracker:
                      i2t_a2s=self._i2t_to(d, t) - f0)
         self._trip_ep[d] = ep
         self._done.append(ep)
+        return ep
 
     # -------------------------------------------------------------- helpers
     def _onset(self, paths: list, i_g: float) -> bool:
-        """Whether some device of ``paths`` carries more than its threshold because
-        of the group's current ``i_g`` (module notes, onset)."""
+        """Whether the group of ``paths`` carrying ``i_g`` opens an episode: a fault
+        always (it is a short by definition), a train's bridges when some device
+        of them carries more than its threshold because of ``i_g`` (module notes,
+        onset)."""
+        if paths[0].kind == "fault":
+            return True
         thr = self._onset_thr
         dev_i = self._dev_i
         for path in paths:
@@ -557,14 +732,47 @@ class EpisodeTracker:
 
     def _close_quiet(self, t_s: float, groups: Mapping, events: list) -> None:
         """Close every open episode whose group is not in ``groups`` (carries no
-        short current), appending its ``cleared`` event."""
+        short current), appending its ``cleared`` event; ``end_s`` is the instant
+        its current stopped. One whose current stopped at a swap waits for the
+        swapping device's reclose (module notes, "End")."""
         opened = self._open
         for gkey in [g for g in opened if g not in groups]:
-            op = opened.pop(gkey)
-            op.ep.end_s = t_s
+            op = opened[gkey]
+            if op.quiet_s is None:
+                op.quiet_s = t_s
+            if op.dead and self._waiting(op, t_s):
+                continue
+            del opened[gkey]
+            op.ep.end_s = op.quiet_s
             self._finish(op)
             events.append(Event(t_s, op.ep.where, "cleared",
                                 {"kind": op.ep.kind, "outcome": op.ep.outcome}))
+
+    @staticmethod
+    def _waiting(op: _Open, t_s: float) -> bool:
+        """Whether a swapping device of ``op`` is in its dead time at ``t_s`` (the
+        short may come back at its reclose, moved to the other end of its section)."""
+        for dev, t_reclose in list(op.dead.items()):
+            if t_s <= t_reclose + T_TOL_S:
+                return True
+            del op.dead[dev]                          # it never reclosed (tripped, held)
+        return False
+
+    def _late(self, d: str) -> Optional[Episode]:
+        """A closed episode in which ``d``'s present run over its trip level (a
+        supply: at its limit) began: a trip that ends that run belongs to it."""
+        ov = self._over.get(d)
+        if ov is None or ov.ep is None or ov.t0 < ov.ep.start_s - T_TOL_S:
+            return None
+        if any(op.ep is ov.ep for op in self._open.values()):
+            return None
+        return ov.ep
+
+    def _attach(self, ep: Episode, d: str, t_s: float) -> None:
+        """``d`` tripped, switched off or dropped out at ``t_s`` in the closed ``ep``."""
+        ep.tripped.setdefault(d, t_s)
+        if d not in ep.devices:
+            ep.devices = self._ordered(set(ep.devices) | {d})
 
     def _finish(self, op: _Open, still_open: bool = False) -> None:
         ep = op.ep

@@ -39,6 +39,7 @@ import simpy
 
 from sim.timebase import T_TOL_S, snap_s
 from sim.trace import Event
+from sim.world.trains import Stand, has_power
 
 if TYPE_CHECKING:  # pragma: no cover
     from sim.world.engine import World
@@ -213,6 +214,8 @@ class TrainRun:
         self.loads: dict = {}            # circuit key -> (section, chain)
         self.t_stop_s: Optional[float] = None
         self.stopped = False
+        self.on_devices: set = set()     # devices it is registered under (power checks)
+        self.stands: list = []           # sim.world.trains.Stand, stops on a bridge
         self.v_nominal_v = self._v_nominal()
         self._vehicles = plan.consist.vehicles
 
@@ -282,9 +285,11 @@ class TrainRun:
             moved = True
         if self.t_stop_s is not None and not self.stopped and self.t_stop_s <= t_s + T_TOL_S:
             self.stopped = True
-            w.record_train(t_s, self.name, "stop")
+            self._stand(t_s)
         if moved:
             self._place_loads(t_s)
+            self._register()
+            w.check_train_later(self.name)      # its pickups may join other rails now
 
     def replan(self, t_s: float, cause) -> None:
         """Interrupted by the world after a motion change: nothing to do but sleep anew."""
@@ -318,14 +323,22 @@ class TrainRun:
             if key not in self.bridges:
                 self.bridges[key] = b
                 w.set_bridge(key, b.joint_index, b.rail, b.r_ohm, self._path(b))
+        self._register()
 
     # ------------------------------------------------------------ loads
     def _place_loads(self, t_s: float) -> None:
-        """Each locomotive's draw at the middle of the section it is in."""
+        """Each locomotive's draw at the middle of the section its draw point is in.
+
+        The draw point lies between the locomotive's first and last pickup
+        axle; while those axles stand on both sides of a gapped joint the
+        circuit joins them (the group's bridge), so the load is joined to every
+        rail its pickups touch (:func:`sim.world.trains.has_power`).
+        """
         if self.plan.draw_a <= 0.0 or self.v_nominal_v <= 0.0:
             return
         w = self.world
         s = self.motion.position_s(t_s)
+        moved = False
         for p in self.plan.load_points(s):
             key = ("ld", self.name, p.vehicle)
             old = self.loads.get(key)
@@ -333,51 +346,79 @@ class TrainRun:
                 continue
             sec = w.scn.track.sections[p.section]
             chain = w.layout.device_chain(p.section)
-            if old is not None:
-                for d in old[1]:
-                    w.trains_on.get(d, set()).discard(self.name)
-            for d in chain:
-                w.trains_on.setdefault(d, set()).add(self.name)
             self.loads[key] = (p.section, chain)
             w.set_load(key, p.section, 0.5 * sec.length_m, self.v_nominal_v / p.draw_a)
+            moved = True
+        if moved:
+            self._register()
             w.check_train_later(self.name)
+
+    def _register(self) -> None:
+        """Register the train under every device its power depends on: the feed
+        chains of its loads' sections and the devices feeding every joint its
+        wheels bridge (power can come through them)."""
+        w = self.world
+        devs: set = set()
+        for _section, chain in self.loads.values():
+            devs.update(chain)
+        for b in self.bridges.values():
+            devs.update(self._path(b).devices)
+        if devs == self.on_devices:
+            return
+        for d in self.on_devices - devs:
+            w.trains_on.get(d, set()).discard(self.name)
+        for d in devs - self.on_devices:
+            w.trains_on.setdefault(d, set()).add(self.name)
+        self.on_devices = devs
 
     # ------------------------------------------------------------ power
     def check_power(self, t_s: float, sol) -> None:
-        """Power lost or back, from the voltage at the locomotives' loads."""
+        """Power lost or back, from the voltage at the locomotives' loads
+        (:func:`sim.world.trains.has_power`)."""
         if not self.loads:
             return
-        w = self.world
-        ok = False
         load_v = sol.load_v_v
-        for key, (section, chain) in self.loads.items():
-            v = load_v.get(key, 0.0)
-            if abs(v) >= 0.5 * self.v_nominal_v and w.chain_closed(chain):
-                ok = True
-                break
+        ok = has_power([load_v.get(key, 0.0) for key in self.loads], self.v_nominal_v)
         m = self.motion
         if ok == m.powered:
             return
         if ok:
             m.power_back(t_s)
             if self.stopped:
-                w.record_train(t_s, self.name, "go")
+                self._went(t_s)
             self.stopped = False
             self.t_stop_s = None
         else:
             self.t_stop_s = m.power_lost(t_s)
             self.stopped = self.t_stop_s <= t_s
-            if self.stopped:
-                w.record_train(t_s, self.name, "stop")
         self._reconcile(t_s, stopping=self.stopped)
+        if not ok and self.stopped:
+            self._stand(t_s)
         self.pending = m.next_bridge_events(t_s + T_TOL_S)
         self.k = 0
         if self.proc is not None and self.proc.is_alive:
             self.proc.interrupt("replan")
 
+    def _stand(self, t_s: float) -> None:
+        """The train stops at ``t_s``: the ``stop`` event, and a stand on the gaps
+        its wheels bridge (:class:`sim.world.trains.Stand`)."""
+        joints = tuple(sorted({self._path(b).where for b in self.bridges.values()}))
+        self.world.record_train(t_s, self.name, "stop", {"bridging": joints} if joints else None)
+        if joints:
+            self.stands.append(Stand(self.name, t_s, None, joints))
+
+    def _went(self, t_s: float) -> None:
+        """The train goes on at ``t_s`` after a stop."""
+        st = self.stands[-1] if self.stands else None
+        if st is not None and st.end_s is None:
+            st.end_s = t_s
+        self.world.record_train(t_s, self.name, "go")
+
     # ----------------------------------------------------------- inrush
-    def inrush(self, t_s: float) -> float:
-        """Keep-alive capacitors charge again after their device closes (engine doc).
+    def inrush(self, t_s: float, device: Optional[str] = None) -> float:
+        """Keep-alive capacitors charge again after their device closes (engine doc):
+        those of the locomotives whose load's feed chain holds ``device`` (every
+        one with ``None``).
 
         Returns the longest pulse started (s), 0 with none.
         """
@@ -386,6 +427,8 @@ class TrainRun:
         w = self.world
         tau_max = 0.0
         for key, (section, chain) in self.loads.items():
+            if device is not None and device not in chain:
+                continue
             veh = self._vehicles[key[2]]
             i_peak, tau = inrush(veh, self.v_nominal_v)
             if i_peak <= 0.0 or tau <= 0.0:

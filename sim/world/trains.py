@@ -62,6 +62,12 @@ Building a plan is linear in (gapped joints on the route) x (conducting
 groups). Recomputing the instants after a speed change is a few vectorised
 array passes over the spans still ahead; the event records are made only
 when read (:class:`BridgeEvents`).
+
+Finding codes (this module)
+---------------------------
+RF-RUN-027 (warning, info) a train stood without power, its wheels bridging
+                           gapped joints, for :data:`T_STAND_REPORT_S` or
+                           longer (warning: still standing at the end).
 """
 from __future__ import annotations
 
@@ -73,14 +79,91 @@ from typing import NamedTuple, Optional
 import numpy as np
 
 from sim.errors import ScenarioError
-from sim.model import Scenario, Train
+from sim.model import Finding, Scenario, Train
 from sim.world.consist import METAL, Consist, ConductingGroup, consist_of
 from sim.world.geometry import ReversalPoint, RoutePath, build_route
 
 INF = math.inf
 
 __all__ = ["BridgeEvent", "BridgeEvents", "BridgeInterval", "BridgeSpan", "LoadPoint",
-           "Motion", "Position", "TrainPlan", "build_plan", "build_trains"]
+           "Motion", "POWER_FRACTION", "Position", "Stand", "TrainPlan", "build_plan",
+           "build_trains", "has_power", "stand_findings"]
+
+#: A train has power when the voltage across a locomotive's pickups is at least this
+#: fraction of nominal (a decoder browns out at about half its rail voltage: our
+#: choice of threshold, not a published one).
+POWER_FRACTION = 0.5
+
+
+def has_power(load_v: Sequence[float], v_nominal_v: float) -> bool:
+    """Whether a train has power: the voltage at one of its locomotives' loads is at
+    least :data:`POWER_FRACTION` of ``v_nominal_v``.
+
+    A locomotive's pickup axles are joined electrically, so it draws from the
+    most live of the rails they touch. Its load sits at its draw point, between
+    its first and last pickup axle; while those axles stand on both sides of a
+    gapped joint the circuit joins them through the group's bridge, so the
+    voltage at the load is the voltage across the pickups (less the bridge's
+    drop at the locomotive's draw, a few millivolts) whichever district its
+    draw point is in, dark or not. Power is read from the circuit alone: a
+    section whose device is open has power exactly when wheels standing on it
+    feed it from a live one (a back-feed), as on a real layout.
+    """
+    lim = POWER_FRACTION * v_nominal_v
+    for v in load_v:
+        if (v if v >= 0.0 else -v) >= lim:
+            return True
+    return False
+
+
+@dataclass
+class Stand:
+    """A train standing still, without power, on wheels that bridge gapped joints.
+
+    From its ``stop`` at ``start_s`` to its ``go`` at ``end_s`` (``None``: it
+    still stands at the end of the run); ``joints`` names the joints its wheels
+    bridge as it stops (a train that stops stands on the bridges it reached).
+    """
+
+    train: str
+    start_s: float
+    end_s: Optional[float]
+    joints: tuple
+
+    def duration_s(self, t_end_s: float) -> float:
+        """How long it stood, up to ``t_end_s`` when it still stands."""
+        return (self.end_s if self.end_s is not None else t_end_s) - self.start_s
+
+    def as_dict(self) -> dict:
+        return {"train": self.train, "start_s": self.start_s, "end_s": self.end_s,
+                "joints": list(self.joints)}
+
+
+#: A stand across a gap shorter than this is the instant a short takes, shown by its
+#: episode; one this long or longer gets RF-RUN-027 (s; our choice, not a published value).
+T_STAND_REPORT_S = 1.0
+
+
+def stand_findings(stands: Sequence[Stand], t_end_s: float) -> list[Finding]:
+    """RF-RUN-027 for every stand of :data:`T_STAND_REPORT_S` or longer: a warning
+    when the train still stands at ``t_end_s`` (it never went on), else info."""
+    out = []
+    for st in stands:
+        dur_s = st.duration_s(t_end_s)
+        if dur_s < T_STAND_REPORT_S:
+            continue
+        still = st.end_s is None
+        gaps = ", ".join(st.joints)
+        msg = (f"train {st.train} stood without power across gap {gaps} for {dur_s:.3f} s "
+               f"(from {st.start_s:.6f} s; "
+               + ("still standing at the end of the run)" if still
+                  else f"went on at {st.end_s:.6f} s)"))
+        out.append(Finding(
+            "warning" if still else "info", "RF-RUN-027", st.train, msg,
+            "find what darkened the districts on both sides of the gap (the shorts and "
+            "dark districts reported for that time); the train goes on when one of them "
+            "has power again", first_s=st.start_s, last_s=st.start_s))
+    return out
 
 
 class Position(NamedTuple):
