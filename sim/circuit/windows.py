@@ -29,7 +29,10 @@ RF-WIN-003 (warning) the power-up inrush stays above the threshold for at
                      least the trip delay: it may trip on every restart.
 RF-WIN-004 (warning) the continuous rating (thermal rated current, else the
                      trip threshold) is more than 70 % of the weakest short
-                     current (common practice: keep it at 70 % or less).
+                     current (common practice: keep it at 70 % or less). When
+                     every prospective coin current in the district is above the
+                     supply's limit, that limit (not the wiring) sets the weakest
+                     short, and the fix is the supply's limit or the rating.
 RF-WIN-005 (info)    the inrush crosses the threshold but for less than the trip delay.
 """
 from __future__ import annotations
@@ -67,6 +70,10 @@ class TripWindow:
     i_rating_a: float
     top_at: tuple
     t_s: object = None
+    #: the weakest prospective (unlimited) coin current through the device (A)
+    top_prospective_a: float = float("nan")
+    #: the supply whose limit caps every short in the district, else ``None``
+    limited_by: object = None
 
 
 def power_up_load(scn: Scenario, layout, sections, v_track_v: float):
@@ -103,14 +110,17 @@ def trip_windows(scn: Scenario, fm: FaultMap, layout=None) -> list:
             if not pts:
                 continue
             top, top_sec, top_at = min(pts)
+            top_pro = min(p.device_i_a[p.chain.index(name)] for p in fm.points
+                          if p.section in secs and name in p.chain)
             sup = supply_of(scn, name)
+            capped = sup if sup in scn.supplies and top_pro > top + 1e-9 else None
             v = scn.supplies[sup].v_emf_v if sup in scn.supplies else 0.0
             steady, peak, tau, trains, t_s = power_up_load(scn, layout, secs, v)
             thermal = getattr(dev, "thermal", None)
             rating = thermal.i_rated_a if thermal is not None else dev.trip.i_above_a
             out.append(TripWindow(name, kind, secs, trains, steady, peak, tau, steady + peak,
                                   top, dev.trip.i_above_a, dev.trip.t_after_s, rating,
-                                  (top_sec, top_at), t_s))
+                                  (top_sec, top_at), t_s, top_pro, capped))
     return out
 
 
@@ -146,10 +156,18 @@ def window_findings(scn: Scenario, fm: FaultMap, layout=None) -> list:
                     f"power-up inrush crosses {w.device}'s {w.i_trip_a:g} A trip for "
                     f"{t_over * 1e3:.2f} ms, less than its {w.t_after_s * 1e3:.2f} ms delay"))
         if w.i_rating_a > RATING_SHARE * w.top_a and w.i_trip_a < w.top_a:
-            findings.append(Finding(
-                "warning", "RF-WIN-004", where,
-                f"{w.device}'s continuous rating {w.i_rating_a:g} A is "
-                f"{100 * w.i_rating_a / w.top_a:.0f} % of the weakest short current "
-                f"{w.top_a:.2f} A (common practice: 70 % or less)",
-                "add feeders or heavier wire so far-end shorts draw more"))
+            text = (f"{w.device}'s continuous rating {w.i_rating_a:g} A is "
+                    f"{100 * w.i_rating_a / w.top_a:.0f} % of the weakest short current "
+                    f"{w.top_a:.2f} A (common practice: 70 % or less)")
+            fix = "add feeders or heavier wire so far-end shorts draw more"
+            if w.limited_by is not None:
+                sup = w.limited_by
+                text += (f"; that current is supply {sup}'s limit: every short in the "
+                         f"district would draw {w.top_prospective_a:.2f} A or more "
+                         f"without it")
+                fix = (f"give {sup} a current limit of {w.i_rating_a / RATING_SHARE:.2f} A "
+                       f"or more, or set {w.device}'s continuous rating to "
+                       f"{RATING_SHARE * w.top_a:.2f} A or less (feeders and wire do not "
+                       f"help: {sup}'s limit, not the wiring, caps the short)")
+            findings.append(Finding("warning", "RF-WIN-004", where, text, fix))
     return findings
