@@ -157,3 +157,32 @@ def test_supply_first_coin_findings_follow_from_the_trip_order():
     f = by_code(findings, "RF-FAULT-006")
     assert f["track.sections.east-main"].because.startswith("RF-COORD-010 boosters.south.trip")
     assert f["track.sections.west-main"].because.startswith("RF-COORD-010 boosters.north.trip")
+
+
+def test_slow_breaker_fix_counts_the_sampled_booster():
+    # w-slow-ecb: yard-ecb trips after 6 ms (continuous) under north, 4 ms sampled every
+    # 0.1 ms: north's earliest trip is (40 - 1) x 0.1 = 3.9 ms, so yard-ecb must trip
+    # before it: 3.89 ms on the 0.01 ms grid (not "below 4 ms"); or north's earliest trip
+    # must exceed yard-ecb's 6 ms: (n - 1) x 0.1 > 6 -> n = 62 samples, 6.2 ms
+    scn = variant(ecb_after_ms=6)
+    f = by_code(check_coordination(scn, build_layout(scn)), "RF-COORD-004")
+    ecb = f["breakers.yard-ecb.trip"]
+    assert ecb.severity == "error"
+    assert "set yard-ecb's trip delay to 3.89 ms or less (now 6 ms)" in ecb.fix
+    assert "set north's trip delay to 6.2 ms (62 samples of 0.1 ms) or more" in ecb.fix
+
+
+def test_coin_table_names_the_nearest_device():
+    # the yard sections are fed by yard-ecb (its file: feed: yard-ecb), the stub by
+    # stub-ar, the balloon by loop-ar: the weakest-short table of check names those, the
+    # devices that should clear a short there, not the booster above them
+    from sim.commands.check import check_result, render_check
+
+    text = render_check(check_result(str(BASE)))
+    table = text.split("Weakest coin-test short per section")[1].split("\n\n")[0]
+    rows = {ln.split()[0]: ln.split() for ln in table.splitlines()[3:]}
+    assert rows["yard-1"][3] == "yard-ecb" and rows["yard-lead"][3] == "yard-ecb"
+    assert rows["stub"][3] == "stub-ar" and rows["balloon"][3] == "loop-ar"
+    assert rows["west-main"][3] == "north"
+    # yard-ecb trips above 2.5 A (its file)
+    assert rows["yard-1"][8:11] == ["2.50", "A", "trips"]
