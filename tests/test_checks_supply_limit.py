@@ -78,6 +78,7 @@ def test_reverser_race_counts_the_supply_switch_off():
     assert m["stub-ar"]["psu"] == pytest.approx(0.5e-3, abs=1e-12)
     race = by_code(check_coordination(scn, lay), "RF-COORD-002")
     loop = race["reversers.loop-ar"]
+    assert loop.severity == "error"      # the file requires 0.5 ms and the race leaves 0.2
     assert "supply psu can switch off 1 ms after onset" in loop.message
     assert "margin +0.200 ms" in loop.message
     # hand: the swap must end 0.5 ms before 1 ms less the 0.1 ms sense: below 0.4 ms

@@ -65,8 +65,9 @@ Codes
 -----
 RF-COORD-001 (error)
     Negative margin: an upstream device trips before the reversing device clears.
-RF-COORD-002 (warning)
-    Margin not above the required margin (``require: {margin: ...}``).
+RF-COORD-002 (error; a warning before: a run fails such a race, RF-RUN-004)
+    Margin not above the required margin (``require: {margin: ...}``): the file
+    requires more than the race leaves.
 RF-COORD-003 (info)
     The least margin of a reversing device, when none is short.
 RF-COORD-004 (error)
@@ -563,7 +564,7 @@ def _race(scn: Scenario, layout) -> list[Finding]:
                 findings.append(Finding("error", "RF-COORD-001", where, text + first, fix))
             else:
                 findings.append(Finding(
-                    "warning", "RF-COORD-002", where,
+                    "error", "RF-COORD-002", where,
                     text + f", not above the required {req * 1e3:.3g} ms", fix))
         if not short:
             margin, d, t_trip, nominal, curve, period = rows[0]
