@@ -617,22 +617,24 @@ def _nested_finding(scn: Scenario, own: str, k: str, u: str) -> Optional[Finding
         when = ""
     advice = "; or ".join(a.text for a in nested_advice(scn, k, u))
     if supply:
-        advice += ("; or " if advice else "") +             f"give {u} a current limit above the short's current (railfault faultmap shows it)"
+        advice += (("; or " if advice else "")
+                   + f"give {u} a current limit above the short's current (railfault "
+                   f"faultmap shows it)")
     fix = f"any one of: {advice}" if advice else f"set {k}'s trip delay shorter"
     nominal_k, nominal_u = tl["nominal_k_s"], tl["nominal_u_s"]
+    trips_after = (f"{own} {k} trips after {dev.trip.t_after_s * 1e3:.3g} ms"
+                   + (f" ({_ms(nominal_k)} after the onset)"
+                      if nominal_k != dev.trip.t_after_s else ""))
+    first = "(TM 5-811-14 4-1: the device nearest the fault must operate first)"
     if supply:
         dark = ", ".join(supply_dark(scn, u))
         u_how = f"supply {u} feeding it ({_supply_how(scn, u)})"
         if nominal_k >= nominal_u:
             return Finding(
                 "error", "RF-COORD-010", where,
-                f"{own} {k} trips after {dev.trip.t_after_s * 1e3:.3g} ms"
-                + (f" ({_ms(nominal_k)} after the onset)" if nominal_k != dev.trip.t_after_s
-                   else "")
-                + f", not before the {u_how}{when}: on a hard short in {k}'s district that "
-                f"draws more than the limit, {u} switches off first and every district on it "
-                f"goes dark ({dark}) (TM 5-811-14 4-1: the device nearest the fault must "
-                f"operate first)", fix)
+                f"{trips_after}, not before the {u_how}{when}: on a hard short in {k}'s "
+                f"district that draws more than the limit, {u} switches off first and every "
+                f"district on it goes dark ({dark}) {first}", fix)
         if tl["latest_s"] >= tl["e_u_s"]:
             return Finding(
                 "warning", "RF-COORD-011", where,
@@ -643,13 +645,9 @@ def _nested_finding(scn: Scenario, own: str, k: str, u: str) -> Optional[Finding
     if nominal_k >= nominal_u:
         return Finding(
             "error", "RF-COORD-004", where,
-            f"{own} {k} trips after {dev.trip.t_after_s * 1e3:.3g} ms"
-            + (f" ({_ms(nominal_k)} after the onset)" if nominal_k != dev.trip.t_after_s
-               else "")
-            + f", not sooner than the {kind} {u} feeding it "
+            f"{trips_after}, not sooner than the {kind} {u} feeding it "
             f"({nominal_u * 1e3:.3g} ms){when}: on a hard short in {k}'s district "
-            f"{u} trips first (TM 5-811-14 4-1: the device nearest the fault must "
-            f"operate first)", fix)
+            f"{u} trips first {first}", fix)
     if tl["latest_s"] >= tl["e_u_s"]:
         why = "sampling jitter"
         if tl["dip_s"] is not None and not tl["seen"]:
