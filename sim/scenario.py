@@ -154,13 +154,43 @@ def _load_text(doc: Document, text: str, sha: str) -> M.Scenario:
         doc.problem(("format",), f"unsupported format {S.describe(fmt)}: this version of "
                                  f"railfault reads `format: {FORMAT}` only")
         raise ScenarioError(doc.problems)
-    scn = _pipeline(doc, data, sha)
+    try:
+        scn = _pipeline(doc, data, sha)
+    except ScenarioError as exc:
+        raise ScenarioError(_sorted(list(exc.problems) + _case_problems(doc, data, sha,
+                                                                  exc.problems))) from None
     if data.get("cases"):
         from dataclasses import replace
         from sim.whatif.cases import build_cases
 
         scn = replace(scn, cases=build_cases(doc, data, lambda d, sub: _pipeline(sub, d, sha)))
     return scn
+
+
+def _case_problems(doc: Document, data: dict, sha: str, base: list) -> list:
+    """The problems of the ``cases`` when the rest of the file has some too, so that one
+    run of the loader reports them all; a base problem that a case repeats (``in case
+    'NAME': ...`` at the same place) is left out. None when the ``cases`` block itself
+    is malformed (the base problems say so)."""
+    cases = data.get("cases")
+    if not isinstance(cases, dict) or not all(isinstance(v, dict) for v in cases.values()) \
+            or any(p.path == "cases" or p.path.startswith("cases.") for p in base):
+        return []
+    from sim.whatif.cases import build_cases
+
+    seen = {(p.path, p.message) for p in base}
+    try:
+        build_cases(doc, data, lambda d, sub: _pipeline(sub, d, sha))
+    except ScenarioError as exc:
+        out = []
+        for p in exc.problems:
+            msg = p.message
+            if msg.startswith("in case '") and "': " in msg:
+                msg = msg.split("': ", 1)[1]
+            if (p.path, msg) not in seen and p not in out:
+                out.append(p)
+        return out
+    return []
 
 
 def _pipeline(doc: Document, data: dict, sha: str) -> M.Scenario:

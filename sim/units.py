@@ -152,6 +152,30 @@ def _normalise_unit(unit_text: str) -> str:
     return _POWER_RE.sub(r"**\1", text)
 
 
+#: Spelled-out units that the units library misreads or does not know, and what was
+#: meant ("amps" reads as attometres per second there).
+_SPELLED = {"amp": "A", "amps": "A", "milliamps": "mA", "milliamp": "mA"}
+
+
+def _suggest_unit(unit_text: str, dim: Dimension, lower: bool = True) -> Optional[str]:
+    """A unit of dimension ``dim`` that ``unit_text`` probably means: a spelled-out name
+    (:data:`_SPELLED`) or, with ``lower`` (for a unit the library does not know), the
+    same letters in lower case (``Ohm`` -> ``ohm``), if that is a unit of ``dim``; else
+    ``None``. (A known unit of another dimension is not lower-cased: ``mA`` is not a
+    misspelt ``ma``.)"""
+    low = unit_text.strip().lower()
+    for cand in (_SPELLED.get(low), low if lower else None):
+        if not cand or cand == unit_text or not _UNIT_CHARS_RE.fullmatch(cand):
+            continue
+        try:
+            _f, exponents, _n = _unit_info(_normalise_unit(cand))
+        except _unit_errors():
+            continue
+        if exponents == dim.exponents:
+            return cand
+    return None
+
+
 def dimension_of(exponents: tuple[tuple[str, int], ...]) -> Optional[Dimension]:
     """The known :class:`Dimension` with these base exponents, if any."""
     for dim in DIMENSIONS:
@@ -257,11 +281,19 @@ def parse_quantity(value: object, dim: Dimension) -> float:
     try:
         factor, exponents, _name = _unit_info(_normalise_unit(unit_text))
     except _unit_errors():  # an unknown name, or names that do not combine
+        sug = _suggest_unit(unit_text, dim)
+        hint = f'; did you mean "{m.group("num")} {sug}"?' if sug else ""
         raise QuantityError(f"expected {dim.label}, got {got}: unknown unit "
-                            f'"{unit_text}"') from None
+                            f'"{unit_text}"{hint}') from None
     if exponents != dim.exponents:
         found = dimension_of(exponents)
         what = f" ({found.name})" if found is not None and found is not DIMENSIONLESS else ""
+        sug = _suggest_unit(unit_text, dim, lower=False)
+        if sug:
+            read = f"reads as {found.name}" if what else "reads as another quantity"
+            raise QuantityError(
+                f"expected {dim.label}, got {got}: \"{unit_text}\" {read}, not as "
+                f"{dim.name}; did you mean \"{m.group('num')} {sug}\"?")
         raise QuantityError(f"expected {dim.label}, got {got}{what}")
     return _finite(_to_float(_EXACT.multiply(number, factor), number), dim, got)
 

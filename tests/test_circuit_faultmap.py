@@ -162,6 +162,30 @@ def test_trip_window_bottom_and_top():
     assert "RF-WIN-002" not in codes(f)
 
 
+def test_inrush_of_two_keep_alives_is_the_sum_of_their_exponentials():
+    # two locomotives (0.8 A each: 1.6 A steady) charge keep-alives behind 10 ohm: peaks
+    # 16/10 = 1.6 A each, tau1 = 10 x 0.05 = 0.5 s, tau2 = 10 x 0.1 = 1.0 s = 2 tau1.
+    # Above a 4 A trip while 1.6 + 1.6 x^2 + 1.6 x > 4 with x = exp(-t / 1 s):
+    # x^2 + x - 1.5 = 0 -> x = (-1 + sqrt 7) / 2 = 0.822876, t = -ln x = 194.95 ms
+    # (by hand); the longest tau applied to both peaks would say 1.0 ln(3.2/2.4) = 287.68 ms
+    from sim.circuit.inrush import time_above_sum_s
+
+    x = (-1 + math.sqrt(7.0)) / 2
+    assert time_above_sum_s(1.6, [(1.6, 0.5), (1.6, 1.0)], 4.0) == pytest.approx(
+        -math.log(x), abs=1e-8)
+    m1 = loco("m1", draw=0.8, c_f=0.05, r_charge=10.0)
+    m2 = loco("m2", draw=0.8, c_f=0.1, r_charge=10.0)
+    scn = scenario([supply("p", V, R_SUP)], [booster("b", "p", r_out=R_OUT, trip_a=4.0,
+                                                      after_s=0.004)],
+                   [section("s", 10.0, "b", [(0.0, W20)])], rolling_stock=[m1, m2],
+                   trains=[train("t1", ["m1", "m2"], "s", ["s"])])
+    fm = fault_map(scn)
+    (w,) = trip_windows(scn, fm)
+    assert sorted(w.inrush_terms) == [(1.6, 0.5), (1.6, 1.0)]
+    (w3,) = [f for f in window_findings(scn, fm) if f.code == "RF-WIN-003"]
+    assert "for 194.95 ms" in w3.message and "287.68" not in w3.message
+
+
 def test_trip_window_steady_draw_and_rating_warning():
     m = loco("m", draw=3.0)
     scn = scenario([supply("p", V, R_SUP)],

@@ -188,3 +188,28 @@ def test_other_non_regular_files_are_refused(path, what, capsys):
         pytest.skip(f"{path} does not exist here")
     assert main(["check", path]) == 2
     assert f"{what}" in capsys.readouterr().err
+
+
+# --------------------------------------------------------------- --until
+RACE = ROOT / "tests" / "scenarios" / "checks" / "coordination-race.yaml"   # duration: 10 s
+
+
+def test_until_beyond_the_duration_is_refused_at_the_duration_key(capsys):
+    # the file's duration is 10 s (its line 9): --until 500 s cannot be simulated as asked
+    assert main(["run", str(RACE), "--until", "500 s"]) == 2
+    err = capsys.readouterr().err
+    assert "coordination-race.yaml:9:1: duration: --until 500 s is beyond the scenario's " \
+           "duration of 10 s" in err
+    assert "Traceback" not in err
+
+
+def test_a_partial_run_says_so_beside_its_verdict(capsys):
+    # --until 2 s of a 10 s scenario: the verdict covers 2 of 10 s and says so on the next line
+    main(["run", str(RACE), "--until", "2 s"])
+    out = capsys.readouterr().out.splitlines()
+    at = next(i for i, ln in enumerate(out) if ln.startswith("Verdict: "))
+    assert out[at + 1].startswith("Partial run: stopped by --until at 2.000 s of the "
+                                  "scenario's 10.000 s")
+    # the whole duration (--until 10 s) is no partial run
+    main(["run", str(RACE), "--until", "10 s"])
+    assert "Partial run" not in capsys.readouterr().out

@@ -490,3 +490,48 @@ def test_mutated_minimal_only_scenario_errors(pos, junk):
         loads(MINIMAL[:pos] + junk + MINIMAL[pos:])
     except ScenarioError as exc:
         assert exc.problems
+
+
+@pytest.mark.parametrize("value, path, message", [
+    # "amps" is read as a speed by the units library (attometre per second): not
+    # "(a speed)" alone, but what was meant
+    ("14 amps", "supplies.psu.current_limit",
+     'expected a current (A), got "14 amps": "amps" reads as a speed, not as a current; '
+     'did you mean "14 A"?'),
+    # an unknown capitalised unit: its lower-case spelling is a resistance
+    ("0.05 Ohm", "supplies.psu.resistance",
+     'expected a resistance (ohm), got "0.05 Ohm": unknown unit "Ohm"; did you mean '
+     '"0.05 ohm"?'),
+    # a known unit of another dimension is not lower-cased into a guess (mA is not "ma")
+    ("1 mA", "boosters.east.trip.after", 'expected a time (s), got "1 mA" (a current)'),
+])
+def test_unit_suggestions(value, path, message):
+    key = path.split(".")[-1]
+    text = {"current_limit": MINIMAL.replace("{voltage: 15 V}",
+                                             f"{{voltage: 15 V, current_limit: {value}}}"),
+            "resistance": MINIMAL.replace("{voltage: 15 V}",
+                                          f"{{voltage: 15 V, resistance: {value}}}"),
+            "after": MINIMAL.replace("after: 2 ms", f"after: {value}")}[key]
+    p = only(text)
+    assert (p.path, p.message) == (path, message)
+
+
+def test_every_error_block_is_reported_at_once():
+    # three mistakes in one file: a vary path naming a train that is not there, and two
+    # bad cases (an unknown key, a time given for a current). All three in one run, the
+    # base one once (the cases repeat it "in case ..." and those copies are left out).
+    text = MINIMAL + """\
+cases:
+  slow: {boosters.east.trip.aftr: 6 ms}
+  small: {supplies.psu.current_limit: 5 ms}
+vary:
+  trains.limted.speed: {normal: [0.4 m/s, 0.05 m/s]}
+"""
+    found = problems(text)
+    assert [(p.path, p.line) for p in found] == [
+        ("cases.slow.boosters.east.trip.aftr", 13),
+        ("cases.small.supplies.psu.current_limit", 14),
+        ("vary.trains.limted.speed", 16)]
+    assert "did you mean 'after'" in found[0].message
+    assert found[1].message == 'expected a current (A), got "5 ms" (a time)'
+    assert not any(p.message.startswith("in case") for p in found)

@@ -26,6 +26,10 @@ RF-PHS-001 (error)
     The rails meet out of phase at one or more joints. One finding per group
     of joints that one change can mend, with the change of the fewest settings
     (invert a booster, or swap the leads of a section whose file gives them).
+    When that change inverts a booster that feeds neither side of any joint out
+    of phase (a booster far from the trouble), the fix of the fewest leads
+    alone (no booster changed: the local fix) comes first and the other is
+    offered after it; the wiring sheet's chosen leads follow the first.
 
 Minimal fix and the chosen orientations
 ---------------------------------------
@@ -207,22 +211,27 @@ def solve_phases(scn: Scenario, layout) -> PhaseSolution:
     groups: list = []
     if not agree:
         delta, groups = _coupled_groups(scn, comps, bad, booster, bph, c, given, colour,
-                                        best_eps, free_cost)
+                                        best_eps, free_cost, edges)
     eps = {i: best_eps(i, delta) for i in range(len(comps))}
     leads = dict(given)
     for p in free:
         i = comp_of[p]
         leads[p] = delta.get(booster[p], 1) * eps[i] * bph[booster[p]] * colour[p]
     sol = PhaseSolution(booster, rep, leads, frozenset(free))
-    for members, bs in groups:
+    for members, bs, alt in groups:
         sections = {p for i in members for p in comps[i]}
+        other = None
+        if alt is not None:
+            other = _fixes(scn, sections, bs, alt[0], lambda p: alt[1][comp_of[p]], c, bph,
+                           booster)
         sol.groups.append(_group_finding(scn, sol, edges, sections, bs, delta,
-                                         lambda p: eps[comp_of[p]], c, bph))
+                                         lambda p: eps[comp_of[p]], c, bph, other))
     layout.cache[key] = sol
     return sol
 
 
-def _coupled_groups(scn, comps, bad, booster, bph, c, given, colour, best_eps, free_cost):
+def _coupled_groups(scn, comps, bad, booster, bph, c, given, colour, best_eps, free_cost,
+                    edges=()):
     """The fewest-changes booster flips of every group of components coupled through a
     booster, for the groups where the given leads disagree; ``(delta, groups)`` with
     ``groups`` the component indices of each such group."""
@@ -308,9 +317,28 @@ def _coupled_groups(scn, comps, bad, booster, bph, c, given, colour, best_eps, f
                         dl, ep, improved = trial, tep, True
             candidates.append((dl, ep))
         best = min(candidates, key=lambda de: total(*de))
+        ones = {b: 1 for b in bs}
+        local = (ones, eps_for(ones))
+        alt = None
+        if any(d < 0 for d in best[0].values()) and total(*local) != total(*best):
+            near = _near_boosters({p for i in members for p in comps[i]}, edges, booster, bph,
+                                  given)
+            if any(d < 0 and b not in near for b, d in best[0].items()):
+                best, alt = local, best       # the local fix first
         delta.update(best[0])
-        groups.append((members, bs))
+        groups.append((members, bs, alt))
     return delta, groups
+
+
+def _near_boosters(sections, edges, booster, bph, given) -> set:
+    """The boosters feeding a side of a joint out of phase now (both sides' leads given)
+    among ``sections``."""
+    near: set = set()
+    for u, w, _, data in edges:
+        if u in sections and w in sections and u in given and w in given and \
+                bph[booster[u]] * given[u] != data["sign"] * bph[booster[w]] * given[w]:
+            near.update((booster[u], booster[w]))
+    return near
 
 
 def _word(v: int, kind: str) -> str:
@@ -319,16 +347,28 @@ def _word(v: int, kind: str) -> str:
     return "normal" if v > 0 else "inverted"
 
 
-def _group_finding(scn, sol, edges, sections, bs, delta, eps_of, c, bph):
-    """The RF-PHS-001 finding of one coupled group and the joints out of phase now."""
+def _fixes(scn, sections, bs, delta, eps_of, c, bph, booster) -> list:
+    """The settings a choice of booster flips ``delta`` and component flips changes."""
     secs = scn.track.sections
-    booster, leads = sol.booster, sol.leads
     fixes = [f"booster {b}: phase {_word(bph[b], 'phase')} -> {_word(-bph[b], 'phase')}"
              for b in bs if delta.get(b, 1) < 0]
     for p in sorted(sections, key=list(secs).index):
         if p in c and delta.get(booster[p], 1) * eps_of(p) != c[p]:
             fixes.append(f"section {p}: leads {_word(secs[p].leads, 'leads')} -> "
                          f"{_word(-secs[p].leads, 'leads')}")
+    return fixes
+
+
+def _change(fixes) -> str:
+    n = len(fixes)
+    return f"change {n} setting{'s' if n > 1 else ''}: " + "; ".join(fixes)
+
+
+def _group_finding(scn, sol, edges, sections, bs, delta, eps_of, c, bph, other=None):
+    """The RF-PHS-001 finding of one coupled group and the joints out of phase now
+    (``other``: the settings of the other fix offered, module docstring)."""
+    booster, leads = sol.booster, sol.leads
+    fixes = _fixes(scn, sections, bs, delta, eps_of, c, bph, booster)
     bad = []
     for u, w, k, data in edges:
         if u in sections and w in sections:
@@ -345,12 +385,14 @@ def _group_finding(scn, sol, edges, sections, bs, delta, eps_of, c, bph):
         return f"{j.name} ({kind})"
 
     shown = ", ".join(desc(j) for j in bad[:6]) + (" ..." if len(bad) > 6 else "")
-    n_chg = len(fixes)
+    fix = _change(fixes)
+    if other:
+        fix += f"; or instead {_change(other)}"
     finding = Finding(
         "error", "RF-PHS-001", joint_where(scn, bad[0]),
         f"the rails meet out of phase at {len(bad)} joint{'s' if len(bad) > 1 else ''}: "
         f"{shown}",
-        f"change {n_chg} setting{'s' if n_chg > 1 else ''}: " + "; ".join(fixes))
+        fix)
     return finding, tuple(bad)
 
 

@@ -26,6 +26,20 @@ full scale
 supply limit
     RF-FAULT-003: a trip threshold at or above the supply's current limit.
     Mended by lifting that supply's limit.
+
+A root names only the places it feeds (:func:`root_for`): each mend carries the
+devices its mistake concerns (the device whose threshold or sensor is wrong; for a
+dead short, the devices feeding the sections on both sides of its joints), and a
+finding follows from a root only when one of those devices is in the feed chain
+of the finding's place (a section's chain, or a device and the chain above it).
+Lifting a supply's limit mends every booster on it at once, so without this rule
+the first of them would be named for the districts of the others. A dead short
+draws its supply to its limit and so reaches every district on that supply: when
+no root feeds a place, a dead short on the same supply is named.
+
+A supply that switches off at its limit before a device trips (RF-FAULT-006 of
+the coin test) follows from the trip-order finding of that device and supply
+(RF-COORD-010 or -011, :func:`sim.checks.coordination.nested_subjects`).
 """
 from __future__ import annotations
 
@@ -41,15 +55,19 @@ from sim.checks.wiring import section_leads
 from sim.layout import joint_where
 from sim.model import Finding, Joint, Scenario
 
-__all__ = ["Mend", "dead_short_joints", "static_mends", "limit_mends", "because_of"]
+__all__ = ["Mend", "dead_short_joints", "static_mends", "limit_mends", "because_of",
+           "place_chain", "root_for", "supply_order_roots"]
 
 
 @dataclass(frozen=True)
 class Mend:
-    """A root-cause finding and the scenario with that mistake mended."""
+    """A root-cause finding, the scenario with that mistake mended, the devices the
+    mistake concerns, and the supplies a dead short draws to their limit."""
 
     root: Finding
     scn: Scenario
+    devices: frozenset = frozenset()
+    supplies: frozenset = frozenset()
 
 
 def because_of(f: Finding) -> str:
@@ -143,14 +161,73 @@ def static_mends(scn: Scenario, layout) -> list[Mend]:
         if root is not None:
             by_root.setdefault(root, []).append(j)
     for root, joints in by_root.items():
-        mends.append(Mend(root, _with_gaps(scn, joints)))
+        devs = {d for j in joints for e in j.ends for d in _feeding(scn, layout, e.section)}
+        sups = {d for d in devs if d in scn.supplies}
+        mends.append(Mend(root, _with_gaps(scn, joints), frozenset(devs - sups),
+                          frozenset(sups)))
     for f, table, name in full_scale_subjects(scn):
         dev = getattr(scn, table)[name]
         dev = dataclasses.replace(dev, sense=dataclasses.replace(dev.sense,
                                                                  full_scale_a=math.inf))
         mends.append(Mend(f, dataclasses.replace(
-            scn, **{table: {**getattr(scn, table), name: dev}})))
+            scn, **{table: {**getattr(scn, table), name: dev}}), frozenset({name})))
     return mends
+
+
+def _feeding(scn: Scenario, layout, section: str) -> tuple:
+    """The devices feeding a section, nearest first, its supply last."""
+    d = layout.district(section)
+    if d is None:
+        return ()
+    return (d,) + scn.upstream(d)
+
+
+def place_chain(scn: Scenario, layout, where: str) -> "tuple | None":
+    """The devices feeding the place a circuit finding names (``None``: no place).
+
+    ``track.sections.NAME``: the devices feeding that section; a device's key path
+    (``boosters.NAME.trip.above``) or its bare name (the rail-voltage findings): the
+    device and the chain above it, its supply last.
+    """
+    path = where.split(" (line ")[0]
+    parts = path.split(".")
+    if len(parts) >= 3 and parts[0] == "track" and parts[1] == "sections":
+        name = ".".join(parts[2:])
+        if name in scn.track.sections:
+            return _feeding(scn, layout, name)
+    for table in ("boosters", "breakers", "reversers"):
+        if parts[0] == table and len(parts) >= 2:
+            for name in getattr(scn, table):
+                if path == f"{table}.{name}" or path.startswith(f"{table}.{name}."):
+                    return (name,) + scn.upstream(name)
+    if scn.device_kind(path) in ("booster", "breaker", "reverser"):
+        return (path,) + scn.upstream(path)
+    return None
+
+
+def root_for(scn: Scenario, layout, where: str, mends) -> "Mend | None":
+    """Of the ``mends`` whose mended layout no longer shows a finding at ``where``, the
+    one that feeds that place (module docstring), or ``None``."""
+    chain = place_chain(scn, layout, where)
+    if chain is None:
+        return mends[0] if mends else None
+    feeds = set(chain)
+    for m in mends:
+        if m.devices & feeds:
+            return m
+    for m in mends:
+        if m.supplies & feeds:
+            return m
+    return None
+
+
+def supply_order_roots(scn: Scenario) -> dict:
+    """``{(device, supply): finding}``: the trip-order findings of a device against the
+    supply above it (RF-COORD-010, -011), the roots of RF-FAULT-006."""
+    from sim.checks.coordination import nested_subjects
+
+    return {(k, u): f for f, k, u in nested_subjects(scn)
+            if f.code in ("RF-COORD-010", "RF-COORD-011")}
 
 
 def limit_mends(scn: Scenario, devices) -> list[Mend]:
@@ -161,5 +238,6 @@ def limit_mends(scn: Scenario, devices) -> list[Mend]:
     for f, name in limit_subjects(scn, devices):
         sup = supply_of(scn, name)
         s = dataclasses.replace(scn.supplies[sup], i_limit_a=math.inf)
-        mends.append(Mend(f, dataclasses.replace(scn, supplies={**scn.supplies, sup: s})))
+        mends.append(Mend(f, dataclasses.replace(scn, supplies={**scn.supplies, sup: s}),
+                          frozenset({name})))
     return mends

@@ -73,8 +73,13 @@ def check_findings(scn: Scenario, layout=None, step_m: float = 0.5, with_map: bo
     Root causes (:mod:`sim.checks.rootcause`): a circuit finding that a copy of
     the layout with one root-cause mistake mended (a dead short gapped, a clamped
     sensor freed, a supply limit lifted) does not show follows only from that
-    mistake: it is kept, with ``because`` naming the root finding. A finding
-    that only all the mends together remove names the first root.
+    mistake: it is kept, with ``because`` naming the root finding, provided the
+    root feeds the finding's place (:func:`sim.checks.rootcause.root_for`: lifting
+    a shared supply's limit mends every booster on it, but a district is tied to
+    the booster that feeds it). A finding that only all the mends together remove
+    names the first of their roots that feeds its place. A supply that switches
+    off before a device trips (RF-FAULT-006) follows from that pair's trip-order
+    finding (RF-COORD-010/-011).
 
     Returns
     -------
@@ -84,7 +89,8 @@ def check_findings(scn: Scenario, layout=None, step_m: float = 0.5, with_map: bo
     """
     import dataclasses
 
-    from sim.checks.rootcause import because_of, limit_mends, static_mends
+    from sim.checks.rootcause import (because_of, limit_mends, root_for, static_mends,
+                                      supply_order_roots)
     from sim.circuit.incremental import SingularUpdate
     from sim.errors import TopologyError
     from sim.layout import build_layout
@@ -100,14 +106,21 @@ def check_findings(scn: Scenario, layout=None, step_m: float = 0.5, with_map: bo
                        "check the rail, wire and device values")]
         return (err, [], None) if with_map else (err, [])
     mends = static_mends(scn, layout) + limit_mends(scn, fm.devices)
-    passes = [(m.root, m.scn) for m in mends]
+    passes = [([m], m.scn) for m in mends]
     if len(mends) > 1:
         merged = scn
         for m in mends:
             merged = _merge(merged, m.scn, scn)
-        passes.append((mends[0].root, merged))
+        passes.append((mends, merged))
     because: dict = {}
-    for root, mended in passes:
+    order = supply_order_roots(scn) if fm.supply_first else {}
+    for f in findings:
+        if f.code == "RF-FAULT-006":
+            sec = f.where.split(" (line ")[0].split(".", 2)[-1]
+            root = order.get(fm.supply_first.get(sec))
+            if root is not None:
+                because[(f.code, f.where)] = because_of(root)
+    for roots, mended in passes:
         mended_layout = build_layout(mended, check_routes=False)
         mended_layout.cache.update({k: v for k, v in layout.cache.items()
                                     if k in ("loco_intervals", "train_visits", "train_draw")})
@@ -118,9 +131,12 @@ def check_findings(scn: Scenario, layout=None, step_m: float = 0.5, with_map: bo
         left = {(f.code, f.where) for f in after}
         for f in findings:
             key = (f.code, f.where)
-            if f.code != "RF-FAULT-003" and key not in because and key not in left \
-                    and key != (root.code, root.where):
-                because[key] = because_of(root)
+            if f.code == "RF-FAULT-003" or key in because or key in left:
+                continue
+            m = root_for(scn, layout, f.where, [r for r in roots
+                                                if key != (r.root.code, r.root.where)])
+            if m is not None:
+                because[key] = because_of(m.root)
     findings = [dataclasses.replace(f, because=because[(f.code, f.where)])
                 if (f.code, f.where) in because else f for f in findings]
     return (findings, list(fm.rows), fm) if with_map else (findings, list(fm.rows))

@@ -53,6 +53,19 @@ RF-FAULT-004           retired: a sensing full scale at or below a threshold is
                        which the fault map reports too. The number is not reused.
 RF-FAULT-005 (info)    the points were bounded: the step was widened to keep to
                        :data:`MAX_POINTS` points.
+RF-FAULT-006 (error)   a coin in a section draws more than its supply's current
+                       limit, and the supply switches off at its limit (hiccup or
+                       latch) before the nearest device that trips there can trip:
+                       every district on the supply goes dark. The timing is the
+                       trip-order rule of :func:`sim.checks.coordination.nested_times`
+                       (RF-COORD-010/-011 are its static findings); the current
+                       through the supply is that of the booster at the top of the
+                       point's chain.
+
+A supply that switches off at its limit is a protective device too: where a
+coin's prospective current exceeds its limit it acts ``limit_after`` after the
+onset (:mod:`sim.devices.supply`). Where no device trips, RF-FAULT-001 says that
+only the supply stops the short, taking every district on it down.
 """
 from __future__ import annotations
 
@@ -111,6 +124,9 @@ class FaultMap:
     step_asked_m: float = 0.5
     max_points: int = MAX_POINTS
     devices: tuple = ()
+    #: ``{section: (device, supply)}``: where the supply switches off before the nearest
+    #: device that trips (RF-FAULT-006), and that device.
+    supply_first: dict = field(default_factory=dict)
 
     @property
     def bounded(self) -> bool:
@@ -194,7 +210,7 @@ def fault_map(scn: Scenario, layout=None, step_m: float = 0.5,
               r_coin_ohm: float = R_COIN_OHM, circuit: Optional[Circuit] = None,
               max_points: int = MAX_POINTS) -> FaultMap:
     """Prospective coin current at every point of every district (module docstring)."""
-    from sim.checks.coordination import full_scale_findings
+    from sim.checks.coordination import full_scale_findings, nested_advice, supply_dark
 
     if layout is None:
         from sim.layout import build_layout
@@ -254,21 +270,47 @@ def fault_map(scn: Scenario, layout=None, step_m: float = 0.5,
     by_section: dict = {}
     for p in points:
         by_section.setdefault(p.section, []).append(p)
+    supply_first: dict = {}
     for section, plist in by_section.items():
         where = scn.where("track", "sections", section)
         dead = [p for p in plist if not any(p.trips)]
         if dead:
             worst = min(dead, key=lambda p: p.effective_i_a[0])
             d0 = worst.chain[0]
+            sup = supply_of(scn, d0)
+            only = ""
+            if _over_limit(scn, worst, sup):
+                only = (f"; only supply {sup}, over its {limits[d0]:g} A limit, stops it "
+                        f"({scn.supplies[sup].on_limit}, {scn.supplies[sup].t_limit_s * 1e3:.3g} "
+                        f"ms after the onset), taking down every district on it "
+                        f"({', '.join(supply_dark(scn, sup))})")
             findings.append(Finding(
                 "error", "RF-FAULT-001", where,
                 f"a {r_coin_ohm:g} ohm coin across the rails of {section} at "
                 f"{_span(dead)} trips no device: at {worst.at_m:.2f} m it draws "
                 f"{worst.effective_i_a[0]:.2f} A through {d0} (trips above "
-                f"{device_trip(scn, d0)[0]:g} A); a short there will not be cleared and can "
-                f"overheat the track",
+                f"{device_trip(scn, d0)[0]:g} A){only}; a short there will not be cleared "
+                f"by its own protection and can overheat the track",
                 f"add a feeder near {worst.at_m:.1f} m, use heavier feeder wire, or lower "
                 f"{d0}'s trip threshold"))
+        first = _supply_first_points(scn, plist)
+        if first:
+            late = min(first, key=lambda x: x[1])   # the least margin
+            p, margin, d, sup, tl = late
+            supply_first[section] = (d, sup)
+            i_max = max(x[0].device_i_a[-1] for x in first)
+            lim = scn.supplies[sup]
+            advice = "; or ".join(a.text for a in nested_advice(scn, d, sup))
+            findings.append(Finding(
+                "error", "RF-FAULT-006", where,
+                f"a {r_coin_ohm:g} ohm coin across {section} at {_span([x[0] for x in first])} "
+                f"draws up to {i_max:.2f} A through supply {sup}, above its "
+                f"{lim.i_limit_a:g} A limit: {sup} switches off ({lim.on_limit}) "
+                f"{tl['e_u_s'] * 1e3:.3g} ms after the onset, and {d}, the nearest device "
+                f"that trips there, may trip as late as {tl['latest_s'] * 1e3:.3g} ms: "
+                f"every district on {sup} goes dark ({', '.join(supply_dark(scn, sup))})",
+                (f"any one of: {advice}; or " if advice else "")
+                + f"give {sup} a current limit above {i_max:.2f} A"))
         partial = [p for p in plist if any(p.trips) and not p.trips[0] and len(p.chain) > 1]
         if partial:
             p = partial[0]
@@ -280,7 +322,35 @@ def fault_map(scn: Scenario, layout=None, step_m: float = 0.5,
                 f"but trips {up}: the whole of {up}'s district goes dark",
                 f"lower {p.chain[0]}'s trip threshold or add feeders"))
     return FaultMap(rows, findings, points, districts, step_used, r_coin_ohm, float(step_m),
-                    max_points, tuple(devices))
+                    max_points, tuple(devices), supply_first)
+
+
+def _over_limit(scn: Scenario, p: FaultPoint, sup: Optional[str]) -> bool:
+    """Whether a point's coin draws more than its supply's limit, and that supply switches
+    off at its limit (the current through the supply is the chain's booster's)."""
+    from sim.checks.coordination import switches_off
+
+    return (sup is not None and switches_off(scn, sup)
+            and p.device_i_a[-1] > scn.supplies[sup].i_limit_a)
+
+
+def _supply_first_points(scn: Scenario, plist) -> list:
+    """``[(point, margin s, device, supply, timeline)]``: the points of one section where
+    the supply may switch off before the nearest device that trips there (RF-FAULT-006)."""
+    from sim.checks.coordination import nested_times
+
+    out = []
+    for p in plist:
+        sup = supply_of(scn, p.chain[0])
+        if not _over_limit(scn, p, sup):
+            continue
+        d = next((d for d, t in zip(p.chain, p.trips) if t), None)
+        if d is None:
+            continue                      # nothing trips: RF-FAULT-001 says it
+        tl = nested_times(scn, d, sup)
+        if tl["latest_s"] >= tl["e_u_s"]:
+            out.append((p, tl["e_u_s"] - tl["latest_s"], d, sup, tl))
+    return out
 
 
 def _lead_vectors(c: Circuit, chain_devices):

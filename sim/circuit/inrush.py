@@ -58,3 +58,34 @@ def time_above_s(i_steady_a: float, i_peak_a: float, tau_s: float, i_level_a: fl
     if i_steady_a + i_peak_a <= i_level_a or tau_s <= 0.0:
         return 0.0
     return tau_s * math.log(i_peak_a / (i_level_a - i_steady_a))
+
+
+def time_above_sum_s(i_steady_a: float, terms, i_level_a: float) -> float:
+    """How long ``i_steady + sum(i_peak_k exp(-t/tau_k))`` stays above ``i_level``.
+
+    The keep-alives of several locomotives charge together, each with its own time
+    constant: the sum of their exponentials (superposition of first-order RC
+    charging currents), not the largest time constant applied to the sum of the
+    peaks (which overstates the time). ``terms`` is ``[(i_peak_a, tau_s)]``. The
+    sum decreases in ``t``, so the crossing is the one root of a bracketed
+    equation (Brent's method, :func:`scipy.optimize.brentq`, to 1 ns); with one
+    term it is :func:`time_above_s`.
+    """
+    from scipy.optimize import brentq
+
+    terms = [(p, tau) for p, tau in terms if p > 0.0 and tau > 0.0]
+    if i_steady_a >= i_level_a:
+        return math.inf
+    total = sum(p for p, _ in terms)
+    if not terms or i_steady_a + total <= i_level_a:
+        return 0.0
+    if len(terms) == 1:
+        return time_above_s(i_steady_a, total, terms[0][1], i_level_a)
+    hi = max(tau for _, tau in terms) * math.log(total / (i_level_a - i_steady_a))
+
+    def excess(t_s: float) -> float:
+        return i_steady_a + sum(p * math.exp(-t_s / tau) for p, tau in terms) - i_level_a
+
+    if excess(hi) >= 0.0:
+        return hi
+    return brentq(excess, 0.0, hi, xtol=1e-9)

@@ -64,8 +64,15 @@ def render_check(res: dict) -> str:
                 _wiring_table(res["wiring"]), ""]
     if res["fault_current"]:
         weakest: dict = {}
-        def weakness(r: dict) -> tuple:  # a miss first, then the least current per trip level
-            return (r["ok"], r["current_a"] / r["trip_a"] if r["trip_a"] else 0.0,
+        nearest: dict = {}      # the first device of a section's chain: the rows' order
+        for r in res["fault_current"]:
+            nearest.setdefault(r["section"], r["device"])
+
+        def weakness(r: dict) -> tuple:
+            # a miss first, then the nearest device (the one that should act), then the
+            # least current per trip level
+            return (r["ok"], r["device"] != nearest[r["section"]],
+                    r["current_a"] / r["trip_a"] if r["trip_a"] else 0.0,
                     r.get("prospective_a", r["current_a"]))
 
         for r in res["fault_current"]:

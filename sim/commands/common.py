@@ -48,6 +48,25 @@ def exit_status(verdict: str) -> int:
     return EXIT_PASS if verdict == "pass" else EXIT_FAIL
 
 
+def until_within(scn, until_s: Optional[float], durations_s: Sequence[float] = ()) -> None:
+    """Refuse ``--until`` beyond the scenario's ``duration`` (and beyond every one of
+    ``durations_s``, a compare's cases): exit 2, at the file's ``duration`` key."""
+    from sim.errors import ScenarioError
+    from sim.timebase import T_TOL_S
+
+    if until_s is None:
+        return
+    longest = max([scn.duration_s, *durations_s])
+    if until_s <= longest + T_TOL_S:
+        return
+    line, col = scn.locations.get(("duration",), (None, None))
+    raise ScenarioError([Problem(
+        scn.path, "duration",
+        f"--until {until_s:g} s is beyond the scenario's duration of {longest:g} s: the run "
+        f"stops at its duration; give --until {longest:g} s or less, or lengthen duration",
+        line, col)])
+
+
 def quantity_arg(dimension: str) -> Callable[[str], float]:
     """An argparse type turning ``"0.5m"`` / ``"250 mm"`` into an SI float, within the
     plausible range of its option (:func:`option_kind`)."""

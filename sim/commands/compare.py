@@ -3,7 +3,8 @@ from __future__ import annotations
 
 import json
 
-from sim.commands.common import CAUTION, EXIT_FAIL, EXIT_PASS, add_common, emit, quantity_arg
+from sim.commands.common import (CAUTION, EXIT_FAIL, EXIT_PASS, add_common, emit, quantity_arg,
+                                 until_within)
 
 
 def cmd_compare(args) -> int:
@@ -15,6 +16,7 @@ def cmd_compare(args) -> int:
     if not scn.cases:
         raise ScenarioError([Problem(scn.path, "cases", "nothing to compare: this file has no "
                                      "cases block (see scenarios/README.md, Cases)")])
+    until_within(scn, args.until, [c.duration_s for c in scn.cases.values()])
     res = compare(scn, until_s=args.until)
     if args.json:
         text = json.dumps(res.as_dict(), indent=2)

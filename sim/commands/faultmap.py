@@ -22,7 +22,8 @@ def render_faultmap(res) -> str:
                                      [[f["severity"].upper(), f["code"], f["where"], f["message"]]
                                       for f in d["findings"]]), ""]
     parts.append("Verdict: PASS - every point trips its devices." if res.verdict == "pass"
-                 else "Verdict: FAIL - some shorts would not trip (see above).")
+                 else "Verdict: FAIL - some shorts would not be cleared by the devices "
+                      "nearest them (see above).")
     parts += ["", CAUTION]
     return "\n".join(parts)
 

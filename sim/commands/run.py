@@ -7,7 +7,7 @@ from __future__ import annotations
 import json
 
 from sim.commands.common import (CAUTION, add_common, check_output, emit, exit_status,
-                                 quantity_arg)
+                                 quantity_arg, until_within)
 
 
 def _positive_int(text: str) -> int:
@@ -27,13 +27,34 @@ def cmd_run(args) -> int:
     from sim.world.render import render_text
 
     check_output(args.output, [args.file])
-    result = api.run(api.load(args.file), until_s=args.until, keep_events=args.events,
+    scn = api.load(args.file)
+    until_within(scn, args.until)
+    result = api.run(scn, until_s=args.until, keep_events=args.events,
                      event_budget=args.budget)
     if args.json:
         emit(json.dumps(result.as_dict(), indent=2), args.output, json=True)
     else:
-        emit(render_text(result) + "\n\n" + CAUTION, args.output)
+        emit(mark_partial(render_text(result), result.t_end_s, result.duration_s)
+             + "\n\n" + CAUTION, args.output)
     return exit_status(result.verdict)
+
+
+def mark_partial(text: str, t_end_s: float, duration_s: float) -> str:
+    """``text`` with a line under its verdict saying the run is partial, when it stopped
+    (``--until``) before the scenario's duration: its verdict covers that part only."""
+    from sim.timebase import T_TOL_S
+
+    if t_end_s >= duration_s - T_TOL_S:
+        return text
+    lines = text.split("\n")
+    at = next((i for i, ln in enumerate(lines) if ln.startswith("Verdict: ")), None)
+    note = (f"Partial run: stopped by --until at {t_end_s:.3f} s of the scenario's "
+            f"{duration_s:.3f} s; this verdict covers only the first {t_end_s:.3f} s "
+            f"(what happens later is not judged).")
+    if at is None:
+        return note + "\n" + text
+    lines.insert(at + 1, note)
+    return "\n".join(lines)
 
 
 def register(sub) -> None:
