@@ -289,6 +289,9 @@ class Result:
     cause (filled by the run's diagnosis). ``stands`` lists the trains that
     stopped without power while their wheels bridged gapped joints
     (:class:`sim.world.trains.Stand`: train, start, end or ``None``, joints).
+    ``log`` is the run's :class:`sim.diagnose.runlog.RunLog` (where trains
+    stood, the dark time of each district), read by the diagnosis; not part of
+    the JSON.
     """
 
     title: str
@@ -309,6 +312,7 @@ class Result:
     #: Trains that stopped without power on wheels bridging gapped joints
     #: (``sim.world.trains.Stand``), by start.
     stands: list = field(default_factory=list)
+    log: Optional[object] = None
 
     @property
     def passed(self) -> bool:

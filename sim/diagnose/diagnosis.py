@@ -15,8 +15,9 @@ rebuilt, its ``headline`` and its verdict (:func:`sim.verdict.decide`):
    a group whose episodes a cause explains follows from it (``because``, its
    severity no worse than the cause's); the others are causes of their own;
 3. long let-throughs, the engine's own findings (grouped), districts dark for
-   most of the run (:mod:`sim.diagnose.dark`) and the static errors that say a
-   short is never cleared (:mod:`sim.diagnose.static`) are added;
+   most of the run (:mod:`sim.diagnose.dark`) and every static error of
+   ``railfault check`` that no run cause restates (:mod:`sim.diagnose.static`)
+   are added;
 4. the causes are ranked (:mod:`sim.diagnose.headline`): the findings list each
    cause followed by what follows from it, worst first.
 """
@@ -35,7 +36,8 @@ from sim.diagnose.facts import RunFacts
 from sim.diagnose.groups import EpisodeGroup, SymptomGroup, symptom_groups
 from sim.diagnose.headline import headline_lines, rank_causes
 from sim.diagnose.reported import group_reported
-from sim.diagnose.static import never_cleared, static_findings
+from sim.diagnose.cause import ref
+from sim.diagnose.static import static_errors, static_findings
 from sim.diagnose.symptoms import SYMPTOM_CODES
 from sim.model import Finding, Scenario
 from sim.verdict import decide, severity_rank
@@ -108,7 +110,7 @@ def diagnose_facts(facts: RunFacts) -> Diagnosis:
         else:
             reported.append((f, owner))
     causes.extend(attribute_dark(facts, causes))
-    static = never_cleared(facts.static, specific)
+    static = static_errors(facts.static, specific)
     ranked = rank_causes(facts, causes)
     findings: list[Finding] = []
     for c in ranked:
@@ -117,7 +119,10 @@ def diagnose_facts(facts: RunFacts) -> Diagnosis:
                      for sg, owner in follows if owner is c]
         findings += [_capped(_timed(f, c), c) for f, owner in reported if owner is c]
         findings += [f for f in static if f.because == c.ref]
-    findings += [f for f in static if not f.because]
+    for f in static:
+        if not f.because:
+            findings.append(f)
+            findings += [g for g in static if g.because == ref(f)]
     return Diagnosis(findings, headline_lines(facts, ranked, static), ranked)
 
 
@@ -151,6 +156,7 @@ def diagnose(scn: Scenario, result, layout=None, static: Optional[list] = None,
     facts = RunFacts(scn=scn, layout=layout, episodes=list(result.episodes),
                      devices=dict(result.devices), summary=result.summary,
                      engine_findings=[f for f in result.findings if f.code not in SYMPTOM_CODES],
-                     static=list(static), t_end_s=result.t_end_s)
+                     static=list(static), t_end_s=result.t_end_s,
+                     log=getattr(result, "log", None))
     d = diagnose_facts(facts)
     return replace(result, findings=d.findings, headline=d.headline, verdict=decide(d.findings))
