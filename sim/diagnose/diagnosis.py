@@ -15,7 +15,9 @@ rebuilt, its ``headline`` and its verdict (:func:`sim.verdict.decide`):
    a group whose episodes a cause explains follows from it (``because``, its
    severity no worse than the cause's); the others are causes of their own;
 3. long let-throughs, the engine's own findings (grouped), districts dark for
-   most of the run (:mod:`sim.diagnose.dark`) and every static error of
+   most of the run (:mod:`sim.diagnose.dark`), trains that stood without power
+   for long (:mod:`sim.diagnose.stands`, tied to the cause that took their
+   power) and every static error of
    ``railfault check`` that no run cause restates (:mod:`sim.diagnose.static`)
    are added;
 4. the causes are ranked (:mod:`sim.diagnose.headline`): the findings list each
@@ -37,6 +39,7 @@ from sim.diagnose.groups import EpisodeGroup, SymptomGroup, symptom_groups
 from sim.diagnose.headline import headline_lines, rank_causes
 from sim.diagnose.reported import group_reported
 from sim.diagnose.cause import ref
+from sim.diagnose.stands import find_stands
 from sim.diagnose.static import static_errors, static_findings
 from sim.diagnose.symptoms import SYMPTOM_CODES
 from sim.model import Finding, Scenario
@@ -110,6 +113,12 @@ def diagnose_facts(facts: RunFacts) -> Diagnosis:
         else:
             reported.append((f, owner))
     causes.extend(attribute_dark(facts, causes))
+    # trains that stood without power for long: tied to the cause that took their power
+    for f, owner in find_stands(facts, causes):
+        if owner is None:
+            causes.append(Cause(f, f.message))
+        else:
+            reported.append((f, owner))
     static = static_errors(facts.static, specific)
     ranked = rank_causes(facts, causes)
     findings: list[Finding] = []
@@ -145,7 +154,8 @@ def diagnose(scn: Scenario, result, layout=None, static: Optional[list] = None,
     Returns
     -------
     sim.trace.Result
-        A copy of ``result`` with ``findings``, ``headline`` and ``verdict`` set.
+        A copy of ``result`` with ``findings``, ``headline`` and ``verdict`` set, and
+        each device's ``district_dark_s``.
     """
     if layout is None:
         from sim.layout import build_layout
@@ -159,4 +169,7 @@ def diagnose(scn: Scenario, result, layout=None, static: Optional[list] = None,
                      static=list(static), t_end_s=result.t_end_s,
                      log=getattr(result, "log", None))
     d = diagnose_facts(facts)
-    return replace(result, findings=d.findings, headline=d.headline, verdict=decide(d.findings))
+    devices = {n: replace(s, district_dark_s=facts.district_dark_s(n))
+               if hasattr(s, "district_dark_s") else s for n, s in result.devices.items()}
+    return replace(result, findings=d.findings, headline=d.headline, verdict=decide(d.findings),
+                   devices=devices)

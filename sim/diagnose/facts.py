@@ -160,6 +160,12 @@ class RunFacts:
         """``booster``, ``breaker``, ``reverser``, ``supply`` (or ``device``)."""
         return self.scn.device_kind(device) or "device"
 
+    def table(self, device: str) -> str:
+        """The file's table of ``device``: ``boosters``, ``breakers``, ``reversers``,
+        ``supplies``."""
+        return {"booster": "boosters", "breaker": "breakers", "reverser": "reversers",
+                "supply": "supplies"}.get(self.kind(device), "devices")
+
     def named(self, device: str) -> str:
         """``breaker yard``: a device with its kind."""
         return f"{self.kind(device)} {device}"

@@ -27,7 +27,7 @@ __all__ = ["rank_causes", "headline_lines"]
 
 
 def _rank(facts: RunFacts, c: Cause) -> tuple:
-    share = max((facts.dark_s(d) for d in c.darkened), default=0.0)
+    share = max((facts.district_dark_s(d) for d in c.darkened), default=0.0)
     sev = severity_rank(c.finding.severity)
     if c.darkened and not c.protection:
         group = 0

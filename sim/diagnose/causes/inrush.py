@@ -68,7 +68,7 @@ def find(facts: RunFacts, claimed: set) -> list[Cause]:
         v = scn.supplies[sup].v_emf_v if sup in scn.supplies else 0.0
         steady_a, peak_a, tau_s, trains = _power_up(facts, dev, v)
         t_over_s = time_above_s(steady_a, peak_a, tau_s, trip.i_above_a)
-        dark_s = facts.dark_s(dev)
+        dark_s = facts.district_dark_s(dev)
         gave_up = facts.count(dev, "give_up") > 0
         msg = (f"{facts.named(dev)} cannot restart: the keep-alive capacitors of the trains in "
                f"its district ({', '.join(trains) or 'none'}) charge at "
