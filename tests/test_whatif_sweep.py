@@ -220,3 +220,49 @@ def test_triangular_sampler_is_read_and_checked():
     assert scn.vary["reversers.rev.swap_time"]["values"] == pytest.approx((0.001, 0.002, 0.005))
     with pytest.raises(ScenarioError, match="mode between low and high"):
         loads(text.replace("{uniform: [1 ms, 5 ms]}", "{triangular: [1 ms, 6 ms, 5 ms]}"))
+
+
+def test_a_gap_no_sample_reached_gives_no_conclusion():
+    """Speeds 0.1 and 0.2 m/s: the pickup bridges the gap at 0.375 m / v = 3.75 s and
+    1.875 s, both after the 1 s run (race-uniform.yaml's geometry: 2 m - 1.75 m +
+    0.125 m = 0.375 m to go): no sample reaches the gap, so nothing can be said."""
+    text = open(FILE).read().replace(
+        "reversers.rev.swap_time: {uniform: [1 ms, 5 ms]}", "trains.t1.speed: [0.1 m/s, 0.2 m/s]")
+    res = sweep(loads(text, FILE))
+    g = res.summary["gaps"][0]
+    assert g["gap"] == GAP and g["reached"] == 0
+    assert g["lost"]["of"] == 0 and g["failing"]["of"] == 0 and g["lost"]["p"] is None
+    out = res.text()
+    assert "not reached in any sample: no conclusion" in out
+    assert "confidence" not in out.split("Gap " + GAP)[1].split("\n\n")[0]
+
+
+def test_probabilities_are_over_the_samples_that_reached_the_gap():
+    """Speeds 0.1, 0.2, 0.5 m/s with a 5 ms swap: only 0.5 m/s reaches the gap (0.375 m /
+    0.5 m/s = 0.75 s < 1 s; 3.75 s and 1.875 s are after the run), and there the race is
+    lost (margin 4 ms - 5 ms = -1 ms): lost 1 of the 1 sample that reached it, not 1 of
+    3. Wilson 95 % for 1 of 1 (hand, z = 1.96): centre (1 + z^2/2) / (1 + z^2) less the
+    half width (z^2/2) / (1 + z^2) = 1 / (1 + z^2) = 1 / 4.8416 = 0.2065."""
+    text = open(FILE).read().replace("swap_time: 2 ms", "swap_time: 5 ms").replace(
+        "reversers.rev.swap_time: {uniform: [1 ms, 5 ms]}",
+        "trains.t1.speed: [0.1 m/s, 0.2 m/s, 0.5 m/s]")
+    res = sweep(loads(text, FILE))
+    g = res.summary["gaps"][0]
+    assert g["reached"] == 1
+    assert (g["lost"]["count"], g["lost"]["of"]) == (1, 1)
+    assert g["lost"]["ci95"][0] == pytest.approx(0.2065, abs=1e-3)
+    assert g["worst"]["margin_s"] == pytest.approx(-0.001, abs=2e-9)
+    out = res.text()
+    assert "reached in 1 of 3 samples; of those:" in out
+    assert "lost race: 1 of 1 (" in out
+    # the worst sample's value with its unit: 0.5 m/s
+    assert "trains.t1.speed = 0.5 m/s" in out
+
+
+def test_worst_sample_times_are_printed_in_ms():
+    """The worst sample of the uniform race has T = 4 ms - margin; printed in ms with 3
+    decimals (not in raw seconds)."""
+    res = sweep(load(FILE), samples=40)
+    w = res.summary["gaps"][0]["worst"]
+    t_ms = w["inputs"]["reversers.rev.swap_time"] * 1e3
+    assert f"reversers.rev.swap_time = {t_ms:.3f} ms" in res.text()

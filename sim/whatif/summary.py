@@ -5,8 +5,11 @@ whatever ran them and in which order. For each gap (:mod:`sim.whatif.outcome`):
 
 - ``reached``: samples in which a train bridged it at least once;
 - ``lost``: samples in which a race there was lost, with the Wilson 95 %
-  interval of the probability (:func:`sim.whatif.stats.wilson`) over the valid
-  samples; ``failing`` likewise (lost, or a margin below ``require.margin``);
+  interval of the probability (:func:`sim.whatif.stats.wilson`) over the
+  samples that *reached* the gap (``of`` is ``reached``: a sample in which no
+  train got there says nothing about the race); ``failing`` likewise (lost, or
+  a margin below ``require.margin``). A gap no sample reached has ``of`` 0 and
+  no interval: the text says "not reached in any sample: no conclusion";
 - ``margin_s``: the distribution of the gap's least margin per sample (min,
   quantiles, mean, max, a histogram of 20 equal bins);
 - ``worst``: the sample with the least margin (the lowest index among equals),
@@ -96,12 +99,15 @@ def summarize(scn, settings: dict, records: list[dict]) -> dict:
         with_m = [(r, r["gaps"][g]["margin_s"]) for r in valid
                   if g in r["gaps"] and r["gaps"][g]["margin_s"] is not None]
         margins = [m for _, m in with_m]
+        reached = sum(1 for r in valid if g in r["gaps"])
         row = {
             "gap": g, "section": section or None,
-            "reached": sum(1 for r in valid if g in r["gaps"]),
-            "lost": _proportion(sum(1 for r in valid if r["gaps"].get(g, {}).get("lost")), n),
+            "reached": reached,
+            # over the samples that reached the gap (module docstring)
+            "lost": _proportion(sum(1 for r in valid if r["gaps"].get(g, {}).get("lost")),
+                                reached),
             "failing": _proportion(sum(1 for r in valid if r["gaps"].get(g, {}).get("fail")),
-                                   n),
+                                   reached),
             "margin_s": None, "worst": None, "drivers": [],
         }
         if margins:
@@ -164,10 +170,18 @@ def _ms(x: Optional[float]) -> str:
     return "-" if x is None else f"{x * 1e3:+.3f} ms"
 
 
-def _value(v, unit: str) -> str:
-    if isinstance(v, float):
-        return f"{v:.6g} {unit}".rstrip()
-    return f"{v} {unit}".rstrip()
+def _value(key: str, v, unit: str) -> str:
+    """A varied value with its unit: times in ms (``0.293 ms``, not ``0.000292656 s``), a
+    sense phase as the share of a sample period it is (scenarios/README.md, ``sense``)."""
+    if isinstance(v, bool) or not isinstance(v, (int, float)):
+        return f"{v} {unit}".rstrip()
+    if unit == "s":
+        return f"{v * 1e3:.3f} ms"
+    if key.endswith(".phase"):
+        return f"{v:.3f} of a sample period"
+    if not unit:
+        return f"{v:.6g} (a number, no unit)"
+    return f"{v:.6g} {unit}"
 
 
 def render_summary(summary: dict) -> str:
@@ -191,7 +205,12 @@ def render_summary(summary: dict) -> str:
         head = f"Gap {g['gap']}" + (f" (reversing section {g['section']})" if g["section"]
                                      else "")
         lines.append(head)
-        lines.append(f"  reached in {g['reached']} of {s['valid']} samples")
+        if not g["reached"]:
+            lines.append(f"  not reached in any sample: no conclusion (no train bridged it "
+                         f"with a short in any of {s['valid']} samples)")
+            lines.append("")
+            continue
+        lines.append(f"  reached in {g['reached']} of {s['valid']} samples; of those:")
         lines.append(f"  lost race: {interval_text(g['lost'])}")
         if need > 0:
             lines.append(f"  lost or margin below the required {need * 1e3:.3f} ms: "
@@ -202,7 +221,7 @@ def render_summary(summary: dict) -> str:
                          f"{_ms(m['p50'])}, 95 % {_ms(m['p95'])}, max {_ms(m['max'])}")
             w = g["worst"]
             lines.append(f"  worst: sample {w['sample']}, margin {_ms(w['margin_s'])}, with "
-                         + ", ".join(f"{k} = {_value(v, units.get(k, ''))}"
+                         + ", ".join(f"{k} = {_value(k, v, units.get(k, ''))}"
                                      for k, v in w["inputs"].items()))
             if g["drivers"]:
                 rows = [[d["key"], "-" if d["spearman"] is None else f"{d['spearman']:+.3f}",
