@@ -266,3 +266,52 @@ def test_worst_sample_times_are_printed_in_ms():
     w = res.summary["gaps"][0]["worst"]
     t_ms = w["inputs"]["reversers.rev.swap_time"] * 1e3
     assert f"reversers.rev.swap_time = {t_ms:.3f} ms" in res.text()
+
+
+def _children(pid: int) -> set[int]:
+    """The live child processes of ``pid`` (Linux /proc)."""
+    out: set[int] = set()
+    try:
+        for task in os.listdir(f"/proc/{pid}/task"):
+            with open(f"/proc/{pid}/task/{task}/children") as fh:
+                out.update(int(x) for x in fh.read().split())
+    except OSError:
+        pass
+    return out
+
+
+def _alive(pid: int) -> bool:
+    try:
+        with open(f"/proc/{pid}/stat") as fh:
+            return fh.read().split(")")[-1].split()[0] != "Z"    # a zombie is dead
+    except OSError:
+        return False
+
+
+@pytest.mark.skipif(not sys.platform.startswith("linux"), reason="reads /proc")
+@pytest.mark.parametrize("sig", [signal.SIGTERM, signal.SIGKILL], ids=["TERM", "KILL"])
+def test_workers_die_with_the_sweep(tmp_path, sig):
+    """Kill a --jobs 2 sweep while its workers run: both workers end too (within the
+    watch period of 0.5 s plus slack; the kernel's parent-death signal ends them at once
+    on Linux), and --resume goes on from the store."""
+    store = str(tmp_path / "w.sqlite")
+    base = [sys.executable, "-m", "sim.cli", "sweep", FILE, "--samples", "3000", "--jobs", "2",
+            "--store", store, "--json"]
+    proc = subprocess.Popen(base, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
+    deadline = time.monotonic() + 120
+    workers: set[int] = set()
+    while time.monotonic() < deadline and proc.poll() is None:
+        workers = _children(proc.pid)
+        if len(workers) >= 2 and _count(store) > 0:
+            break
+        time.sleep(0.05)
+    assert proc.poll() is None and len(workers) >= 2, "the sweep did not start its workers"
+    os.kill(proc.pid, sig)
+    proc.wait(timeout=60)
+    deadline = time.monotonic() + 10
+    while time.monotonic() < deadline and any(_alive(w) for w in workers):
+        time.sleep(0.05)
+    left = [w for w in workers if _alive(w)]
+    for w in left:                                 # clean up before failing
+        os.kill(w, signal.SIGKILL)
+    assert not left, f"workers {left} outlived the sweep killed by {sig.name}"
