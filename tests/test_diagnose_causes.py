@@ -221,3 +221,30 @@ def test_club_layout_gets_one_finding_per_cause():
     assert not [f for f in res.findings if "wye" in f.where and not f.because]
     assert res.devices["wye-tail-ctl"].swaps == 1
     _no_faster(res)
+
+
+def test_slow_breaker_is_a_coordination_error_with_the_check_fix():
+    """slow-breaker.yaml (hand figures in its header): a breaker under its 14.39 A short
+    that trips after 6 ms loses to its booster (4 ms, sensing every 0.1 ms)."""
+    from sim.world.render import render_text
+
+    res = _run("slow-breaker")
+    c = _one(res, "RF-RUN-039")
+    # a coordination failure is an error of its own (TM 5-811-14 4-1), even though east
+    # is dark only 6 - 5.00395 = 0.996 s of 6 s (17 %, not most of the run)
+    assert c.severity == "error" and res.verdict == "fail"
+    assert res.devices["east"].district_dark_s == pytest.approx(6.0 - 5.00395, abs=1e-6)
+    # the check's advice: east's earliest trip (40 - 1) x 0.1 ms = 3.9 ms whatever the
+    # phase, so yard-cb must trip in 3.89 ms or less (steps of 0.01 ms), not "below 4 ms"
+    assert "set yard-cb's trip delay to 3.89 ms or less (now 6 ms)" in c.fix
+    assert "below 4.000 ms" not in c.fix
+    # the trip instant, not the onset: 5 s + 0.05 ms + 39 x 0.1 ms = 5.003950 s
+    assert "east acted at 5.003950 s, 3.950 ms after the onset" in c.message
+    # one cause, listed once: linked to check's RF-COORD-004, not repeated as a static line
+    assert c.same_as == "RF-COORD-004 breakers.yard-cb.trip (line 35)"
+    assert not [f for f in res.findings if f.code.startswith("RF-COORD")]
+    assert len(res.headline) == 1
+    text = render_text(res)
+    assert "Verdict: FAIL - 1 cause of trouble" in text
+    assert "  1. " in text and "  2. " not in text
+    assert "same as: RF-COORD-004 breakers.yard-cb.trip (line 35)" in text

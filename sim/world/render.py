@@ -118,6 +118,9 @@ def _finding_lines(result: Result) -> list[str]:
         out += _wrap(f.message, "          ", "          ")
         if f.fix:
             out += _wrap(f.fix, "          fix: ", "               ")
+        if getattr(f, "same_as", ""):
+            out += _wrap(f"{f.same_as} (railfault check's finding of the same cause: one "
+                         f"cause, listed once)", "          same as: ", "            ")
         for g in under.get(_ref(f), []) if f in causes else []:
             text = g.message if g.message.startswith(_PLACE_WORDS) else f"{g.where}: {g.message}"
             out += _wrap(f"{g.code} ({g.severity}) {text}",
