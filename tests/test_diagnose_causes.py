@@ -248,3 +248,25 @@ def test_slow_breaker_is_a_coordination_error_with_the_check_fix():
     assert "Verdict: FAIL - 1 cause of trouble" in text
     assert "  1. " in text and "  2. " not in text
     assert "same as: RF-COORD-004 breakers.yard-cb.trip (line 35)" in text
+
+
+def test_a_slow_relay_is_its_own_cause_beside_a_small_supply():
+    """slow-relay-small-supply.yaml (hand figures in its header): psu switches off 2 ms
+    after the onset, rev clears after 0.1 + 5 = 5.1 ms; without psu east trips at 4 ms,
+    so the race is still lost by 5.1 - 4 = 1.1 ms: two causes, neither under the other."""
+    res = _run("slow-relay-small-supply")
+    causes = _causes(res)
+    assert sorted(f.code for f in causes) == ["RF-RUN-033", "RF-RUN-036"]
+    relay = _one(res, "RF-RUN-036")
+    assert not relay.because
+    assert "the race is still lost by 1.100 ms, so mending psu alone does not win it" \
+        in relay.message
+    # with the required 0.5 ms: clear within 2 - 0.5 = 1.5 ms, 5.1 - 1.5 = 3.6 ms faster;
+    # or east's delay longer by 5.1 + 0.5 - 4 = 1.6 ms (and psu holding its limit)
+    assert "make rev clear within 1.500 ms of the onset, 3.600 ms faster" in relay.fix
+    assert "lengthen east's trip delay by more than 1.600 ms" in relay.fix
+    # the gap's short (margin 2 - 5.1 = -3.1 ms) follows from the relay, not the supply
+    (gap,) = [f for f in res.findings if f.code == "RF-RUN-001"]
+    assert gap.because == "RF-RUN-036 reversers.rev (line 34)"
+    assert "worst margin -3.100 ms" in gap.message
+    assert len(res.headline) == 2
