@@ -44,6 +44,10 @@ def test_misphased_gap_between_fixed_districts():
     assert c.last_s == pytest.approx(22 * 1.002, abs=1e-9)             # 22.044 s
     # the fewest settings to change, as railfault check finds them (RF-PHS-001)
     assert c.fix == "change 1 setting: booster west-bst: phase inverted -> normal"
+    # railfault check's RF-PHS-001 at the same joint (line 46 of the file) is the same
+    # cause: linked, not listed a second time
+    assert c.same_as == "RF-PHS-001 loop1.b~loop2.a (line 46)"
+    assert not [f for f in res.findings if f.code == "RF-PHS-001"]
     _no_faster(res)
     # the 23 trips are one line that follows from it, not 23
     (g,) = [f for f in res.findings if f.because]
@@ -70,6 +74,9 @@ def test_train_longer_than_its_reversing_section():
     # 750 - 600 = 150 mm short
     assert c.fix.startswith("lengthen rev-sec by more than 150 mm (to more than 750 mm), or "
                             "bring local's conducting span under 600 mm")
+    # the run shows check's RF-LEN-001 (the same 750 - 600 = 150 mm) by linking to it
+    assert c.same_as == "RF-LEN-001 trains.local.consist (line 48)"
+    assert not [f for f in res.findings if f.code == "RF-LEN-001"]
     # onset: front pickup axle at 2.6 m when the front is at 2.62 m: 1.12 m / 0.5 m/s
     assert c.first_s == pytest.approx(1.12 / 0.5, abs=1e-9)              # 2.240 s
     _no_faster(res)
