@@ -277,3 +277,19 @@ def test_a_slow_relay_is_its_own_cause_beside_a_small_supply():
     assert gap.because == "RF-RUN-036 reversers.rev (line 34)"
     assert "worst margin -3.100 ms" in gap.message
     assert len(res.headline) == 2
+
+
+def test_keep_alive_inrush_counts_the_trains_there_at_the_restart():
+    """inrush-left.yaml (hand figures in its header): s4 left the yard at 8.75 s, so
+    the restart at 70.0005 s closes onto 3 keep-alives, not the 4 that stood there at
+    0 s."""
+    res = _run("inrush-left")
+    c = _one(res, "RF-RUN-034")
+    assert "trains in its district at 70.000500 s (s1, s2, s3)" in c.message
+    # 3 x 16 V / 8 ohm = 6.00 A on top of 3 x 0.25 A = 0.75 A
+    assert "charge at 6.00 A in all" in c.message
+    assert "on top of 0.75 A running draw" in c.message
+    # 16 ms x ln(6 / (4 - 0.75)) = 9.810 ms
+    assert "stay above its 4.00 A trip for 9.810 ms" in c.message
+    # 4 A - 0.75 A = 3.25 A
+    assert "charging current to under 3.25 A in all" in c.fix
