@@ -126,6 +126,15 @@ def test_text_leads_with_the_verdict_and_headline_then_findings_then_tables():
     # the lock-out, the slow reverser, and check's RF-COORD-004 the run does not exercise
     assert lines[3].startswith("Verdict: FAIL - 3 causes of trouble")
     assert lines[4].startswith("  1. breaker yard dark for 239.998 s of 300.000 s (80 %)")
+    # as many numbered lines as the count says (3), no more
+    import re as _re
+    verdict = text[text.index("Verdict:"):text.index("Findings:")]
+    assert _re.findall(r"^  (\d+)\. ", verdict, _re.M) == ["1", "2", "3"]
+    # the headline's dark time is the table's district dark time for yard: the same
+    # 300 - 60.0005 - 3 x 0.0005 = 239.998 s (inrush-lockout.yaml header)
+    (row,) = [ln for ln in lines if ln.startswith("yard ") and "breaker" in ln]
+    assert row.split()[7:9] == ["239.998", "s"]          # the "district dark" column
+    assert res.devices["yard"].district_dark_s == pytest.approx(239.998, abs=1e-3)
     order = [text.index(s) for s in ("Verdict:", "Findings:", "Short episodes", "Devices")]
     assert order == sorted(order)
     # grouped by place without --events: the three inrush trips are one row
