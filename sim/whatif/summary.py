@@ -38,9 +38,11 @@ SWEEP_FORMAT = "railfault-sweep/1"
 HIST_BINS = 20
 
 
-def _proportion(k: int, n: int) -> dict:
+def _proportion(k: int, n: int, over: str = "valid") -> dict:
+    """``{count, of, p, ci95, over}``: ``over`` names what ``of`` counts (``valid``
+    samples, or those that ``reached`` a gap)."""
     lo, hi = wilson(k, n)
-    return {"count": k, "of": n, "p": (k / n) if n else None, "ci95": [lo, hi]}
+    return {"count": k, "of": n, "p": (k / n) if n else None, "ci95": [lo, hi], "over": over}
 
 
 def _histogram(values: list[float]) -> dict:
@@ -105,9 +107,9 @@ def summarize(scn, settings: dict, records: list[dict]) -> dict:
             "reached": reached,
             # over the samples that reached the gap (module docstring)
             "lost": _proportion(sum(1 for r in valid if r["gaps"].get(g, {}).get("lost")),
-                                reached),
+                                reached, "reached"),
             "failing": _proportion(sum(1 for r in valid if r["gaps"].get(g, {}).get("fail")),
-                                   reached),
+                                   reached, "reached"),
             "margin_s": None, "worst": None, "drivers": [],
         }
         if margins:
@@ -160,7 +162,8 @@ def interval_text(prop: dict) -> str:
     k, n = prop["count"], prop["of"]
     lo, hi = prop["ci95"]
     if n == 0:
-        return "no valid sample"
+        return ("not reached in any sample: no conclusion" if prop.get("over") == "reached"
+                else "no valid sample")
     if k == 0:
         return f"none of {n} (below {percent(hi)} with 95 % confidence)"
     return f"{k} of {n} ({percent(prop['p'])}, 95 % CI {percent(lo)} to {percent(hi)})"
