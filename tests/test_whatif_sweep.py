@@ -253,7 +253,7 @@ def test_probabilities_are_over_the_samples_that_reached_the_gap():
     assert g["lost"]["ci95"][0] == pytest.approx(0.2065, abs=1e-3)
     assert g["worst"]["margin_s"] == pytest.approx(-0.001, abs=2e-9)
     out = res.text()
-    assert "reached in 1 of 3 samples; of those:" in out
+    assert "reached in 1 of 3 samples; of those 1:" in out
     assert "lost race: 1 of 1 (" in out
     # the worst sample's value with its unit: 0.5 m/s
     assert "trains.t1.speed = 0.5 m/s" in out
@@ -315,3 +315,30 @@ def test_workers_die_with_the_sweep(tmp_path, sig):
     for w in left:                                 # clean up before failing
         os.kill(w, signal.SIGKILL)
     assert not left, f"workers {left} outlived the sweep killed by {sig.name}"
+
+
+def test_a_gap_crossed_in_phase_says_so():
+    """rev-sec wired normal (in phase with main): the pickup crosses main.b~rev-sec.a
+    with no short. At 0.5 m/s it gets there at 0.375 m / 0.5 m/s = 0.75 s, inside the 1 s
+    run; at 0.1 m/s only at 3.75 s, after it: crossed in phase in 1 of 2 samples."""
+    text = open(FILE).read().replace("leads: swapped", "leads: normal").replace(
+        "reversers.rev.swap_time: {uniform: [1 ms, 5 ms]}", "trains.t1.speed: [0.1 m/s, 0.5 m/s]")
+    res = sweep(loads(text, FILE))
+    g = res.summary["gaps"][0]
+    assert (g["reached"], g["crossed_in_phase"]) == (0, 1)
+    assert [r["crossed"] for r in res.records] == [[], [GAP]]
+    assert "crossed in phase (no short) in 1 of 2 samples, never with a short: no race to " \
+           "judge" in res.text()
+
+
+def test_store_keeps_the_crossed_gaps(tmp_path):
+    """The store gives back each sample's crossed gaps: the summary from it equals the
+    one made in memory (the speeds of test_a_gap_crossed_in_phase_says_so)."""
+    text = open(FILE).read().replace("leads: swapped", "leads: normal").replace(
+        "reversers.rev.swap_time: {uniform: [1 ms, 5 ms]}", "trains.t1.speed: [0.1 m/s, 0.5 m/s]")
+    f = tmp_path / "crossed.yaml"
+    f.write_text(text, encoding="utf-8")
+    mem = sweep(load(str(f)))
+    kept = sweep(load(str(f)), store=str(tmp_path / "c.sqlite"))
+    assert json.dumps(kept.summary) == json.dumps(mem.summary)
+    assert kept.summary["gaps"][0]["crossed_in_phase"] == 1

@@ -3,7 +3,9 @@
 Made from the sample records alone (sorted by index), so it is the same
 whatever ran them and in which order. For each gap (:mod:`sim.whatif.outcome`):
 
-- ``reached``: samples in which a train bridged it at least once;
+- ``reached``: samples in which a train bridged it with a short at least once;
+  ``crossed_in_phase``: samples in which a train crossed it with no short there
+  (:func:`sim.whatif.outcome.crossed_gaps`);
 - ``lost``: samples in which a race there was lost, with the Wilson 95 %
   interval of the probability (:func:`sim.whatif.stats.wilson`) over the
   samples that *reached* the gap (``of`` is ``reached``: a sample in which no
@@ -105,6 +107,8 @@ def summarize(scn, settings: dict, records: list[dict]) -> dict:
         row = {
             "gap": g, "section": section or None,
             "reached": reached,
+            "crossed_in_phase": sum(1 for r in valid if g not in r["gaps"]
+                                    and g in r.get("crossed", ())),
             # over the samples that reached the gap (module docstring)
             "lost": _proportion(sum(1 for r in valid if r["gaps"].get(g, {}).get("lost")),
                                 reached, "reached"),
@@ -208,12 +212,19 @@ def render_summary(summary: dict) -> str:
         head = f"Gap {g['gap']}" + (f" (reversing section {g['section']})" if g["section"]
                                      else "")
         lines.append(head)
+        crossed = g.get("crossed_in_phase", 0)
         if not g["reached"]:
-            lines.append(f"  not reached in any sample: no conclusion (no train bridged it "
-                         f"with a short in any of {s['valid']} samples)")
+            if crossed:
+                lines.append(f"  crossed in phase (no short) in {crossed} of {s['valid']} "
+                             f"samples, never with a short: no race to judge")
+            else:
+                lines.append(f"  not reached in any sample: no conclusion (no train bridged "
+                             f"it in any of {s['valid']} samples)")
             lines.append("")
             continue
-        lines.append(f"  reached in {g['reached']} of {s['valid']} samples; of those:")
+        more = f", crossed in phase (no short) in {crossed} more" if crossed else ""
+        lines.append(f"  reached in {g['reached']} of {s['valid']} samples{more}; of those "
+                     f"{g['reached']}:")
         lines.append(f"  lost race: {interval_text(g['lost'])}")
         if need > 0:
             lines.append(f"  lost or margin below the required {need * 1e3:.3f} ms: "
