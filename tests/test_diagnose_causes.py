@@ -293,3 +293,18 @@ def test_keep_alive_inrush_counts_the_trains_there_at_the_restart():
     assert "stay above its 4.00 A trip for 9.810 ms" in c.message
     # 4 A - 0.75 A = 3.25 A
     assert "charging current to under 3.25 A in all" in c.fix
+
+
+def test_trains_that_stood_without_power_follow_from_the_lock_out():
+    """inrush-lockout.yaml: yard's last retry trips at 90.0015 s + 0.5 ms = 90.002 s and
+    it gives up; each switcher's 0.5 s keep-alive runs out at 90.502 s and it stands to
+    the end: 300 - 90.502 = 209.498 s (RF-RUN-042, 10 s or more). The earlier dark spell,
+    60.5005 s to the retry at 70.0005 s, is 9.5 s: under 10 s, not reported."""
+    res = _run("inrush-lockout")
+    stands = [f for f in res.findings if f.code == "RF-RUN-042"]
+    assert sorted(f.where.split()[0] for f in stands) == [f"trains.s{k}" for k in (1, 2, 3, 4)]
+    for f in stands:
+        assert f.because == "RF-RUN-034 yard" and f.severity == "warning"
+        assert f.count == 1 and f.first_s == pytest.approx(90.502, abs=1e-9)
+        assert "from 90.502000 s to the end of the run (209.498 s)" in f.message
+        assert "breaker yard was open" in f.message
