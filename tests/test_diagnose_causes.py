@@ -308,3 +308,15 @@ def test_trains_that_stood_without_power_follow_from_the_lock_out():
         assert f.count == 1 and f.first_s == pytest.approx(90.502, abs=1e-9)
         assert "from 90.502000 s to the end of the run (209.498 s)" in f.message
         assert "breaker yard was open" in f.message
+
+
+def test_a_stand_across_a_gap_follows_from_the_short_that_stopped_it():
+    """slow-relay-stand.yaml (header): the engine's RF-RUN-027 stand across
+    main.b~rev-sec.a from the short's onset at 0.75 s ((2 m - 1.75 m + 0.125 m) /
+    0.5 m/s), for over 1 s (psu's 1 s off time), is tied to the slow relay; no second
+    stand finding."""
+    res = _run("slow-relay-stand")
+    (st,) = [f for f in res.findings if f.code == "RF-RUN-027"]
+    assert st.where == "t1" and st.first_s == pytest.approx(0.75, abs=1e-9)
+    assert st.because == "RF-RUN-036 reversers.rev (line 25)"
+    assert not [f for f in res.findings if f.code == "RF-RUN-042"]

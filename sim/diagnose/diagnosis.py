@@ -39,7 +39,7 @@ from sim.diagnose.groups import EpisodeGroup, SymptomGroup, symptom_groups
 from sim.diagnose.headline import headline_lines, rank_causes
 from sim.diagnose.reported import group_reported
 from sim.diagnose.cause import ref
-from sim.diagnose.stands import find_stands
+from sim.diagnose.stands import ENGINE_CODE as STAND_ENGINE_CODE, engine_stand_owner, find_stands
 from sim.diagnose.static import static_errors, static_findings
 from sim.diagnose.symptoms import SYMPTOM_CODES
 from sim.model import Finding, Scenario
@@ -106,7 +106,11 @@ def diagnose_facts(facts: RunFacts) -> Diagnosis:
             causes.append(lt)
     # the engine's own findings: tied to the lock-out cause of their device, or their own
     lockouts = {c.finding.where: c for c in specific if c.finding.code == "RF-RUN-034"}
+    engine_stands = []
     for f in group_reported(facts.engine_findings):
+        if f.code == STAND_ENGINE_CODE:
+            engine_stands.append(f)          # tied to their stand's cause below
+            continue
         owner = lockouts.get(f.where) if f.code == INRUSH_CODE else None
         if owner is None:
             causes.append(Cause(f, f"{f.where}: {f.message}"))
@@ -117,6 +121,12 @@ def diagnose_facts(facts: RunFacts) -> Diagnosis:
     for f, owner in find_stands(facts, causes):
         if owner is None:
             causes.append(Cause(f, f.message))
+        else:
+            reported.append((f, owner))
+    for f in engine_stands:
+        owner = engine_stand_owner(facts, f, causes)
+        if owner is None:
+            causes.append(Cause(f, f"{f.where}: {f.message}"))
         else:
             reported.append((f, owner))
     static = static_errors(facts.static, specific)

@@ -21,6 +21,11 @@ they add up to and the longest one (where it stood, from when to when). A
 group tied to a cause follows from it (``because``, no more severe than it);
 one without a cause is a warning of its own, with the devices to look at.
 
+The engine reports a train standing across a gap for a second or more itself
+(RF-RUN-027, :func:`sim.world.trains.stand_findings`): such a stand is not
+reported again here; the engine's finding is tied to the stand's cause instead
+(:func:`engine_stand_owner`).
+
 RF-RUN-042 (warning)
     A train stood without power for :data:`STAND_LONG_S` or more.
 """
@@ -34,7 +39,7 @@ from sim.diagnose.text import dur_text, plural, t_text
 from sim.model import Finding
 from sim.verdict import severity_rank
 
-__all__ = ["find_stands", "STAND_LONG_S", "CODE"]
+__all__ = ["find_stands", "engine_stand_owner", "STAND_LONG_S", "CODE", "ENGINE_CODE"]
 
 #: A stand this long is reported (s): our choice, longer than any keep-alive and any
 #: restart back-off of the trade's devices (a few seconds at most), far shorter
@@ -42,6 +47,10 @@ __all__ = ["find_stands", "STAND_LONG_S", "CODE"]
 STAND_LONG_S = 10.0
 
 CODE = "RF-RUN-042"
+#: The engine's own finding of a stand across a gap.
+ENGINE_CODE = "RF-RUN-027"
+#: Two records of one stop agree to this (s).
+_SAME_S = 1e-6
 
 
 def _place(st) -> str:
@@ -79,14 +88,38 @@ def _owner(facts: RunFacts, st, causes: list[Cause]) -> Optional[Cause]:
     return None
 
 
+def _engine_stands(facts: RunFacts) -> list[Finding]:
+    return [f for f in facts.engine_findings if f.code == ENGINE_CODE]
+
+
+def _stand_at(facts: RunFacts, train: str, t_s: Optional[float]):
+    if facts.log is None or t_s is None:
+        return None
+    for st in facts.log.stands:
+        if st.train == train and abs(st.t_stop_s - t_s) <= _SAME_S:
+            return st
+    return None
+
+
+def engine_stand_owner(facts: RunFacts, f: Finding, causes: list[Cause]) -> Optional[Cause]:
+    """The cause of the stand an engine RF-RUN-027 finding reports (``None``: unknown)."""
+    st = _stand_at(facts, f.where, f.first_s)
+    return _owner(facts, st, causes) if st is not None else None
+
+
 def find_stands(facts: RunFacts, causes: list[Cause]) -> list[tuple[Finding, Optional[Cause]]]:
     """``[(finding, the cause it follows from or None)]`` of every long stand, grouped
-    per train and cause (module docstring)."""
+    per train and cause (module docstring); stands the engine reports itself
+    (RF-RUN-027) are left out."""
     if facts.log is None:
         return []
+    engine = [(f.where, f.first_s) for f in _engine_stands(facts)]
     groups: dict = {}
     for st in facts.log.stands:
         if st.duration_s < STAND_LONG_S:
+            continue
+        if any(tr == st.train and t is not None and abs(t - st.t_stop_s) <= _SAME_S
+               for tr, t in engine):
             continue
         owner = _owner(facts, st, causes)
         groups.setdefault((st.train, id(owner)), (owner, []))[1].append(st)
