@@ -39,8 +39,6 @@ __all__ = ["RunLog", "Stand", "MAX_STANDS", "stand_place"]
 
 #: Stands kept per run (the longest are kept when there are more).
 MAX_STANDS = 2000
-#: Open spans kept per device.
-MAX_SPANS = 10_000
 
 
 @dataclass
@@ -112,7 +110,7 @@ class RunLog:
     """
 
     __slots__ = ("_below", "_state", "_off", "_since", "_dark", "stands", "_open",
-                 "dropped", "max_stands", "t_end_s", "_spans", "_full")
+                 "dropped", "max_stands", "t_end_s")
 
     def __init__(self, chains: dict, max_stands: int = MAX_STANDS):
         below: dict = {d: [] for d in chains}
@@ -129,8 +127,6 @@ class RunLog:
         self.dropped = 0
         self.max_stands = int(max_stands)
         self.t_end_s: Optional[float] = None
-        self._spans: dict = {}             # device -> [[t_off, t_on or None], ...]
-        self._full: set = set()            # devices past MAX_SPANS
 
     @classmethod
     def of(cls, scn, max_stands: int = MAX_STANDS) -> "RunLog":
@@ -146,14 +142,6 @@ class RunLog:
         if self._state.get(device, True) == conducting:
             return
         self._state[device] = conducting
-        spans = self._spans.setdefault(device, [])
-        if not conducting:
-            if len(spans) < MAX_SPANS:
-                spans.append([t_s, None])
-            else:
-                self._full.add(device)
-        elif spans and spans[-1][1] is None:
-            spans[-1][1] = t_s
         off, since, dark = self._off, self._since, self._dark
         for d in self._below.get(device, ()):
             n = off.get(d, 0)
@@ -176,25 +164,6 @@ class RunLog:
         if since is not None and end is not None:
             total += max(0.0, end - since)
         return total
-
-    def open_at(self, device: str, t_s: float) -> Optional[bool]:
-        """Whether ``device``'s own output was off at ``t_s``, once the instant had
-        settled (off from before or at ``t_s`` and not on again at ``t_s``); ``None``
-        when its spans past the bound leave it unknown."""
-        spans = self._spans.get(device, ())
-        for t_off, t_on in spans:
-            if t_off <= t_s and (t_on is None or t_on > t_s):
-                return True
-        if device in self._full and (not spans or spans[-1][0] < t_s):
-            return None
-        return False
-
-    def opened_s(self, device: str, t_s: float) -> Optional[float]:
-        """When the span of ``device`` open at ``t_s`` began (``None``: not open)."""
-        for t_off, t_on in self._spans.get(device, ()):
-            if t_off <= t_s and (t_on is None or t_on > t_s):
-                return t_off
-        return None
 
     # ------------------------------------------------------------ trains
     def train(self, t_s: float, train: str, event: str, place: Optional[dict] = None) -> None:

@@ -13,22 +13,11 @@ a fault episode in a district on one side of it. The cause claims the train's
 episodes; the fault's own episodes stay what they are (the nearest device
 clearing its part is the protection at work). Severity: warning when the
 neighbour cleared it, error when the short stayed.
-
-The same cause, seen from the fault: a short that begins while the device
-nearest it is already open (tripped, locked out: :meth:`RunLog.open_at
-<sim.diagnose.runlog.RunLog.open_at>`) cannot be cleared by that device; when
-another device clears it, the short was fed around the open one - through a
-train standing across a gap of its district (the run's stands) - and that
-device's whole district went dark for it. It is not a coordination failure of
-the nearest device (RF-RUN-039 would ask for a faster device that was not in
-the circuit at all); the cause claims those fault episodes, names the train
-and the gap, and the fix is where trains stand.
 """
 from __future__ import annotations
 
 from sim.diagnose.cause import Cause
 from sim.diagnose.facts import RunFacts, ep_get
-from sim.diagnose.groups import EpisodeGroup, place_word
 from sim.diagnose.text import a_text, t_text
 from sim.model import Finding
 
@@ -66,86 +55,7 @@ def _pair(facts: RunFacts, g, faults):
     return None
 
 
-def _standing_across(facts: RunFacts, near: str, t_s: float) -> list[tuple[str, str]]:
-    """``[(train, joint)]``: trains standing at ``t_s`` across a gap that joins ``near``'s
-    district to another one."""
-    mine = set(facts.sections_of(near))
-    out = []
-    for st in facts.log.stands:
-        if st.t_stop_s > t_s or (st.t_go_s is not None and st.t_go_s < t_s):
-            continue
-        for g in st.gaps:
-            j = facts.joint(g)
-            if j is not None and len({j.ends[0].section in mine, j.ends[1].section in mine}) == 2:
-                out.append((st.train, g))
-    return out
-
-
-def _around(facts: RunFacts, claimed: set) -> list[Cause]:
-    """Shorts fed around their nearest device while it was open (module docstring)."""
-    from sim.diagnose.causes.faults import fault_section
-
-    if facts.log is None:
-        return []
-    groups: dict = {}
-    for e in facts.episodes:
-        # a scheduled short only: an overload is a device's own load (a supply's hiccup
-        # shows as one at the instant it switches off, peak 0 A), not a short fed around
-        if id(e) in claimed or e.kind != "fault" or not e.acted:
-            continue
-        if e.outcome not in ("tripped", "dropout", "unresolved"):
-            continue
-        sec = fault_section(facts, e)
-        near = facts.nearest_device(sec) if sec is not None else None
-        if near is None or e.acted == near or facts.log.open_at(near, e.start_s) is not True:
-            continue
-        paths = _standing_across(facts, near, e.start_s)
-        key = (e.where, near, e.acted, tuple(paths[:1]))
-        groups.setdefault(key, []).append(e)
-    causes = []
-    for (where, near, up, paths), eps in groups.items():
-        g = EpisodeGroup(where, eps[0].kind, eps)
-        since = facts.log.opened_s(near, eps[0].start_s)
-        msg = (f"{place_word(g.kind)} {where} began while {facts.named(near)}, the device "
-               f"nearest it, was open"
-               + (f" (since {t_text(since)})" if since is not None else "")
-               + ", so it could not clear it: the short was fed around it")
-        if paths:
-            (train, joint), = paths
-            msg += (f" through train {train} standing across {joint} from district "
-                    f"{facts.layout.district(_other_side(facts, joint, near))}")
-            fix = (f"keep trains from standing across {joint} (see why {train} stood there), "
-                   f"so that a short in {near}'s district is not fed from {up}'s while {near} "
-                   f"is open")
-            place = joint
-        else:
-            fix = (f"find the path that feeds {near}'s district around {near} while it is "
-                   f"open (a train or a wire across a gap of its district)")
-            place = where
-        msg += f", until {facts.named(up)} acted: all of {up}'s district went dark; {g.describe()}"
-        causes.append(Cause(
-            Finding("warning", "RF-RUN-035", place, msg, fix, count=g.count, first_s=g.first_s,
-                    last_s=g.last_s),
-            f"the short at {where} is fed around {near} (open)"
-            + (f" through train {paths[0][0]} across {paths[0][1]}" if paths else "")
-            + f", taking {up} down",
-            episodes=eps, dark=(up,)))
-        claimed.update(id(e) for e in eps)
-    return causes
-
-
-def _other_side(facts: RunFacts, joint: str, near: str) -> str:
-    j = facts.joint(joint)
-    mine = set(facts.sections_of(near))
-    x, y = j.ends[0].section, j.ends[1].section
-    return y if x in mine else x
-
-
 def find(facts: RunFacts, claimed: set) -> list[Cause]:
-    return _fed_back(facts, claimed) + _around(facts, claimed)
-
-
-def _fed_back(facts: RunFacts, claimed: set) -> list[Cause]:
     faults = [e for e in facts.episodes if e.kind == "fault"]
     found: dict = {}
     for g in facts.episodes:
