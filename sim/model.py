@@ -495,7 +495,10 @@ class Finding:
     place: ``count`` of them, the first at ``first_s`` and the last at
     ``last_s`` (seconds of simulated time; ``None`` for a static finding).
     ``because`` names the root-cause finding (``"CODE where"``) that this one
-    only follows from ("" when it is a cause of its own).
+    only follows from ("" when it is a cause of its own). ``same_as`` names a
+    finding of ``railfault check`` (``"CODE where"``) that this run finding
+    restates: the same cause, seen in the run ("" when none); a reader merging
+    the check's and the run's findings shows the two as one.
     """
 
     severity: str  # "error" | "warning" | "info"
@@ -507,6 +510,7 @@ class Finding:
     first_s: Optional[float] = None
     last_s: Optional[float] = None
     because: str = ""
+    same_as: str = ""
 
     def as_dict(self) -> dict:
         d = {"severity": self.severity, "code": self.code, "where": self.where,
@@ -521,4 +525,6 @@ class Finding:
             d["last_s"] = self.last_s
         if self.because:
             d["because"] = self.because
+        if self.same_as:
+            d["same_as"] = self.same_as
         return d

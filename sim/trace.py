@@ -255,7 +255,10 @@ class DeviceSummary:
     """What one device did during a run (the ``devices`` table of the JSON).
 
     ``dark_s`` is the total time its output was not conducting (for a supply:
-    switched off by its limit), ``peak_a`` the largest current it carried,
+    switched off by its limit); ``district_dark_s`` the time its district had
+    no power - it or a device above it off (set by the run's diagnosis from
+    :class:`sim.diagnose.runlog.RunLog`; ``None`` until then); ``peak_a`` the
+    largest current it carried,
     ``max_thermal`` the highest thermal-replica level reached (``None`` for a
     device without one).
     """
@@ -267,11 +270,15 @@ class DeviceSummary:
     dark_s: float = 0.0
     peak_a: float = 0.0
     max_thermal: Optional[float] = None
+    district_dark_s: Optional[float] = None
 
     def as_dict(self) -> dict:
-        return {"kind": self.kind, "trips": self.trips, "swaps": self.swaps,
-                "restarts": self.restarts, "dark_s": _num(self.dark_s),
-                "peak_a": _num(self.peak_a), "max_thermal": _num(self.max_thermal)}
+        d = {"kind": self.kind, "trips": self.trips, "swaps": self.swaps,
+             "restarts": self.restarts, "dark_s": _num(self.dark_s),
+             "peak_a": _num(self.peak_a), "max_thermal": _num(self.max_thermal)}
+        if self.district_dark_s is not None:
+            d["district_dark_s"] = _num(self.district_dark_s)
+        return d
 
 
 # ------------------------------------------------------------------ result
@@ -289,6 +296,9 @@ class Result:
     cause (filled by the run's diagnosis). ``stands`` lists the trains that
     stopped without power while their wheels bridged gapped joints
     (:class:`sim.world.trains.Stand`: train, start, end or ``None``, joints).
+    ``log`` is the run's :class:`sim.diagnose.runlog.RunLog` (where trains
+    stood, the dark time of each district), read by the diagnosis; not part of
+    the JSON.
     """
 
     title: str
@@ -309,6 +319,7 @@ class Result:
     #: Trains that stopped without power on wheels bridging gapped joints
     #: (``sim.world.trains.Stand``), by start.
     stands: list = field(default_factory=list)
+    log: Optional[object] = None
 
     @property
     def passed(self) -> bool:

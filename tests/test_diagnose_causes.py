@@ -44,6 +44,10 @@ def test_misphased_gap_between_fixed_districts():
     assert c.last_s == pytest.approx(22 * 1.002, abs=1e-9)             # 22.044 s
     # the fewest settings to change, as railfault check finds them (RF-PHS-001)
     assert c.fix == "change 1 setting: booster west-bst: phase inverted -> normal"
+    # railfault check's RF-PHS-001 at the same joint (line 46 of the file) is the same
+    # cause: linked, not listed a second time
+    assert c.same_as == "RF-PHS-001 loop1.b~loop2.a (line 46)"
+    assert not [f for f in res.findings if f.code == "RF-PHS-001"]
     _no_faster(res)
     # the 23 trips are one line that follows from it, not 23
     (g,) = [f for f in res.findings if f.because]
@@ -70,6 +74,9 @@ def test_train_longer_than_its_reversing_section():
     # 750 - 600 = 150 mm short
     assert c.fix.startswith("lengthen rev-sec by more than 150 mm (to more than 750 mm), or "
                             "bring local's conducting span under 600 mm")
+    # the run shows check's RF-LEN-001 (the same 750 - 600 = 150 mm) by linking to it
+    assert c.same_as == "RF-LEN-001 trains.local.consist (line 48)"
+    assert not [f for f in res.findings if f.code == "RF-LEN-001"]
     # onset: front pickup axle at 2.6 m when the front is at 2.62 m: 1.12 m / 0.5 m/s
     assert c.first_s == pytest.approx(1.12 / 0.5, abs=1e-9)              # 2.240 s
     _no_faster(res)
@@ -165,11 +172,17 @@ def test_reverser_too_slow_names_the_figure_to_reach():
 
 def test_required_margin_is_in_the_figure():
     # balloon-relay: loop-ctl would clear 6.1 ms after the onset; main-bst tripped
-    # 3.909 ms after it (40 samples of 0.1 ms, the first 9 us after the onset); with
-    # the required 0.5 ms, loop-ctl must clear within 3.409 ms: 2.691 ms faster
+    # 3.909 ms after it in this run (40 samples of 0.1 ms, the first 9 us after the
+    # onset) and can trip as early as (40 - 1) x 0.1 ms = 3.9 ms on another sample
+    # phase (TM 5-811-14 and the sampled-sensing rule of railfault check); with the
+    # required 0.5 ms, loop-ctl must clear within 3.9 - 0.5 = 3.400 ms: 2.700 ms faster,
+    # enough whatever the phase (the run's 3.909 ms would give 3.409 ms, not enough)
     res = run(load(Path(__file__).resolve().parents[1] / "scenarios" / "balloon-relay.yaml"))
     c = _one(res, "RF-RUN-036")
-    assert "make loop-ctl clear within 3.409 ms of the onset, 2.691 ms faster" in c.fix
+    assert "make loop-ctl clear within 3.400 ms of the onset, 2.700 ms faster" in c.fix
+    assert "lengthen main-bst's trip delay by more than 2.700 ms" in c.fix
+    # the same cause as railfault check's race finding: one line when merged
+    assert c.same_as == "RF-COORD-001 reversers.loop-ctl (line 26)"
 
 
 def test_reverser_that_never_senses_the_short():
@@ -215,3 +228,95 @@ def test_club_layout_gets_one_finding_per_cause():
     assert not [f for f in res.findings if "wye" in f.where and not f.because]
     assert res.devices["wye-tail-ctl"].swaps == 1
     _no_faster(res)
+
+
+def test_slow_breaker_is_a_coordination_error_with_the_check_fix():
+    """slow-breaker.yaml (hand figures in its header): a breaker under its 14.39 A short
+    that trips after 6 ms loses to its booster (4 ms, sensing every 0.1 ms)."""
+    from sim.world.render import render_text
+
+    res = _run("slow-breaker")
+    c = _one(res, "RF-RUN-039")
+    # a coordination failure is an error of its own (TM 5-811-14 4-1), even though east
+    # is dark only 6 - 5.00395 = 0.996 s of 6 s (17 %, not most of the run)
+    assert c.severity == "error" and res.verdict == "fail"
+    assert res.devices["east"].district_dark_s == pytest.approx(6.0 - 5.00395, abs=1e-6)
+    # the check's advice: east's earliest trip (40 - 1) x 0.1 ms = 3.9 ms whatever the
+    # phase, so yard-cb must trip in 3.89 ms or less (steps of 0.01 ms), not "below 4 ms"
+    assert "set yard-cb's trip delay to 3.89 ms or less (now 6 ms)" in c.fix
+    assert "below 4.000 ms" not in c.fix
+    # the trip instant, not the onset: 5 s + 0.05 ms + 39 x 0.1 ms = 5.003950 s
+    assert "east acted at 5.003950 s, 3.950 ms after the onset" in c.message
+    # one cause, listed once: linked to check's RF-COORD-004, not repeated as a static line
+    assert c.same_as == "RF-COORD-004 breakers.yard-cb.trip (line 35)"
+    assert not [f for f in res.findings if f.code.startswith("RF-COORD")]
+    assert len(res.headline) == 1
+    text = render_text(res)
+    assert "Verdict: FAIL - 1 cause of trouble" in text
+    assert "  1. " in text and "  2. " not in text
+    assert "same as: RF-COORD-004 breakers.yard-cb.trip (line 35)" in text
+
+
+def test_a_slow_relay_is_its_own_cause_beside_a_small_supply():
+    """slow-relay-small-supply.yaml (hand figures in its header): psu switches off 2 ms
+    after the onset, rev clears after 0.1 + 5 = 5.1 ms; without psu east trips at 4 ms,
+    so the race is still lost by 5.1 - 4 = 1.1 ms: two causes, neither under the other."""
+    res = _run("slow-relay-small-supply")
+    causes = _causes(res)
+    assert sorted(f.code for f in causes) == ["RF-RUN-033", "RF-RUN-036"]
+    relay = _one(res, "RF-RUN-036")
+    assert not relay.because
+    assert "the race is still lost by 1.100 ms, so mending psu alone does not win it" \
+        in relay.message
+    # with the required 0.5 ms: clear within 2 - 0.5 = 1.5 ms, 5.1 - 1.5 = 3.6 ms faster;
+    # or east's delay longer by 5.1 + 0.5 - 4 = 1.6 ms (and psu holding its limit)
+    assert "make rev clear within 1.500 ms of the onset, 3.600 ms faster" in relay.fix
+    assert "lengthen east's trip delay by more than 1.600 ms" in relay.fix
+    # the gap's short (margin 2 - 5.1 = -3.1 ms) follows from the relay, not the supply
+    (gap,) = [f for f in res.findings if f.code == "RF-RUN-001"]
+    assert gap.because == "RF-RUN-036 reversers.rev (line 34)"
+    assert "worst margin -3.100 ms" in gap.message
+    assert len(res.headline) == 2
+
+
+def test_keep_alive_inrush_counts_the_trains_there_at_the_restart():
+    """inrush-left.yaml (hand figures in its header): s4 left the yard at 8.75 s, so
+    the restart at 70.0005 s closes onto 3 keep-alives, not the 4 that stood there at
+    0 s."""
+    res = _run("inrush-left")
+    c = _one(res, "RF-RUN-034")
+    assert "trains in its district at 70.000500 s (s1, s2, s3)" in c.message
+    # 3 x 16 V / 8 ohm = 6.00 A on top of 3 x 0.25 A = 0.75 A
+    assert "charge at 6.00 A in all" in c.message
+    assert "on top of 0.75 A running draw" in c.message
+    # 16 ms x ln(6 / (4 - 0.75)) = 9.810 ms
+    assert "stay above its 4.00 A trip for 9.810 ms" in c.message
+    # 4 A - 0.75 A = 3.25 A
+    assert "charging current to under 3.25 A in all" in c.fix
+
+
+def test_trains_that_stood_without_power_follow_from_the_lock_out():
+    """inrush-lockout.yaml: yard's last retry trips at 90.0015 s + 0.5 ms = 90.002 s and
+    it gives up; each switcher's 0.5 s keep-alive runs out at 90.502 s and it stands to
+    the end: 300 - 90.502 = 209.498 s (RF-RUN-042, 10 s or more). The earlier dark spell,
+    60.5005 s to the retry at 70.0005 s, is 9.5 s: under 10 s, not reported."""
+    res = _run("inrush-lockout")
+    stands = [f for f in res.findings if f.code == "RF-RUN-042"]
+    assert sorted(f.where.split()[0] for f in stands) == [f"trains.s{k}" for k in (1, 2, 3, 4)]
+    for f in stands:
+        assert f.because == "RF-RUN-034 yard" and f.severity == "warning"
+        assert f.count == 1 and f.first_s == pytest.approx(90.502, abs=1e-9)
+        assert "from 90.502000 s to the end of the run (209.498 s)" in f.message
+        assert "breaker yard was open" in f.message
+
+
+def test_a_stand_across_a_gap_follows_from_the_short_that_stopped_it():
+    """slow-relay-stand.yaml (header): the engine's RF-RUN-027 stand across
+    main.b~rev-sec.a from the short's onset at 0.75 s ((2 m - 1.75 m + 0.125 m) /
+    0.5 m/s), for over 1 s (psu's 1 s off time), is tied to the slow relay; no second
+    stand finding."""
+    res = _run("slow-relay-stand")
+    (st,) = [f for f in res.findings if f.code == "RF-RUN-027"]
+    assert st.where == "t1" and st.first_s == pytest.approx(0.75, abs=1e-9)
+    assert st.because == "RF-RUN-036 reversers.rev (line 25)"
+    assert not [f for f in res.findings if f.code == "RF-RUN-042"]

@@ -74,8 +74,11 @@ def test_checks_never_cleared_short_shows_in_the_run(capsys):
     assert f.message.startswith(STATIC_MARK)
     # a coin at 30 m: 16 V / 1.302 ohm = 12.29 A, under the 20 A trip (header)
     assert "at 30.00 m it draws 12.29 A through east (trips above 20 A)" in f.message
+    # every static error shows, the never-cleared short first (check's RF-WIN-001: the
+    # 20 A trip is above the weakest short, 12.29 A at 30 m, the same hand figure)
     assert res.headline == ["railfault check finds shorts that are never cleared: "
-                            "RF-FAULT-001 main"]
+                            "RF-FAULT-001 main",
+                            "railfault check also finds: RF-WIN-001 boosters.east.trip.above"]
     assert main(["run", str(path)]) == 1
 
 
@@ -120,8 +123,18 @@ def test_text_leads_with_the_verdict_and_headline_then_findings_then_tables():
     res = run(load(DIAG / "inrush-lockout.yaml"))
     text = render_text(res)
     lines = text.splitlines()
-    assert lines[3].startswith("Verdict: FAIL - 2 causes of trouble")
+    # the lock-out, the slow reverser, and check's RF-COORD-004 the run does not exercise
+    assert lines[3].startswith("Verdict: FAIL - 3 causes of trouble")
     assert lines[4].startswith("  1. breaker yard dark for 239.998 s of 300.000 s (80 %)")
+    # as many numbered lines as the count says (3), no more
+    import re as _re
+    verdict = text[text.index("Verdict:"):text.index("Findings:")]
+    assert _re.findall(r"^  (\d+)\. ", verdict, _re.M) == ["1", "2", "3"]
+    # the headline's dark time is the table's district dark time for yard: the same
+    # 300 - 60.0005 - 3 x 0.0005 = 239.998 s (inrush-lockout.yaml header)
+    (row,) = [ln for ln in lines if ln.startswith("yard ") and "breaker" in ln]
+    assert row.split()[7:9] == ["239.998", "s"]          # the "district dark" column
+    assert res.devices["yard"].district_dark_s == pytest.approx(239.998, abs=1e-3)
     order = [text.index(s) for s in ("Verdict:", "Findings:", "Short episodes", "Devices")]
     assert order == sorted(order)
     # grouped by place without --events: the three inrush trips are one row
@@ -147,11 +160,14 @@ def test_headline_leads_with_the_district_dark_for_most_of_the_run():
     # inrush-lockout.yaml: the lost race at 0.75 s comes first in time and is an error
     # too, but yard dark for 239.998 s of 300 s (80 %) is the headline
     res = run(load(DIAG / "inrush-lockout.yaml"))
-    assert len(res.headline) == 2
+    assert len(res.headline) == 3
     assert res.headline[0] == ("breaker yard dark for 239.998 s of 300.000 s (80 %): breaker "
                                "yard locked out by keep-alive inrush: 3 restarts failed and it "
                                "gave up")
     assert res.headline[1].startswith("reversing controller rev is too slow")
+    # check's RF-COORD-004 (rev's own trip on a short in its section), not exercised by
+    # the run, is shown as static, last
+    assert res.headline[2] == "railfault check also finds: RF-COORD-004 reversers.rev.trip"
     assert [f.code for f in res.findings if not f.because][:2] == ["RF-RUN-034", "RF-RUN-036"]
 
 

@@ -27,8 +27,10 @@ CASES = {
     # check and run both fail: a train longer than its reversing section and a supply
     # limit under a booster's trip (tests/scenarios/diagnose/club-layout.yaml, header)
     "both": (ROOT / "tests" / "scenarios" / "diagnose" / "club-layout.yaml", "fail", "fail"),
-    # the checks fail (two boosters bonded, a siding fed by nothing), no train runs
-    "check": (ROOT / "tests" / "scenarios" / "checks" / "gaps-districts.yaml", "fail", "pass"),
+    # the checks fail (two boosters bonded, a siding fed by nothing), no train runs; the
+    # run fails too: it shows every static error no run of it can disprove
+    # (sim/diagnose/static.py), so a run never passes where its check finds an error
+    "check": (ROOT / "tests" / "scenarios" / "checks" / "gaps-districts.yaml", "fail", "fail"),
     # the checks pass, the run fails: a restart lost to keep-alive inrush (file header)
     "run": (ROOT / "tests" / "scenarios" / "run" / "inrush.yaml", "pass", "fail"),
     # the demo passes both (scenarios/README.md)

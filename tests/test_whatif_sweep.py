@@ -220,3 +220,125 @@ def test_triangular_sampler_is_read_and_checked():
     assert scn.vary["reversers.rev.swap_time"]["values"] == pytest.approx((0.001, 0.002, 0.005))
     with pytest.raises(ScenarioError, match="mode between low and high"):
         loads(text.replace("{uniform: [1 ms, 5 ms]}", "{triangular: [1 ms, 6 ms, 5 ms]}"))
+
+
+def test_a_gap_no_sample_reached_gives_no_conclusion():
+    """Speeds 0.1 and 0.2 m/s: the pickup bridges the gap at 0.375 m / v = 3.75 s and
+    1.875 s, both after the 1 s run (race-uniform.yaml's geometry: 2 m - 1.75 m +
+    0.125 m = 0.375 m to go): no sample reaches the gap, so nothing can be said."""
+    text = open(FILE).read().replace(
+        "reversers.rev.swap_time: {uniform: [1 ms, 5 ms]}", "trains.t1.speed: [0.1 m/s, 0.2 m/s]")
+    res = sweep(loads(text, FILE))
+    g = res.summary["gaps"][0]
+    assert g["gap"] == GAP and g["reached"] == 0
+    assert g["lost"]["of"] == 0 and g["failing"]["of"] == 0 and g["lost"]["p"] is None
+    out = res.text()
+    assert "not reached in any sample: no conclusion" in out
+    assert "confidence" not in out.split("Gap " + GAP)[1].split("\n\n")[0]
+
+
+def test_probabilities_are_over_the_samples_that_reached_the_gap():
+    """Speeds 0.1, 0.2, 0.5 m/s with a 5 ms swap: only 0.5 m/s reaches the gap (0.375 m /
+    0.5 m/s = 0.75 s < 1 s; 3.75 s and 1.875 s are after the run), and there the race is
+    lost (margin 4 ms - 5 ms = -1 ms): lost 1 of the 1 sample that reached it, not 1 of
+    3. Wilson 95 % for 1 of 1 (hand, z = 1.96): centre (1 + z^2/2) / (1 + z^2) less the
+    half width (z^2/2) / (1 + z^2) = 1 / (1 + z^2) = 1 / 4.8416 = 0.2065."""
+    text = open(FILE).read().replace("swap_time: 2 ms", "swap_time: 5 ms").replace(
+        "reversers.rev.swap_time: {uniform: [1 ms, 5 ms]}",
+        "trains.t1.speed: [0.1 m/s, 0.2 m/s, 0.5 m/s]")
+    res = sweep(loads(text, FILE))
+    g = res.summary["gaps"][0]
+    assert g["reached"] == 1
+    assert (g["lost"]["count"], g["lost"]["of"]) == (1, 1)
+    assert g["lost"]["ci95"][0] == pytest.approx(0.2065, abs=1e-3)
+    assert g["worst"]["margin_s"] == pytest.approx(-0.001, abs=2e-9)
+    out = res.text()
+    assert "reached in 1 of 3 samples; of those 1:" in out
+    assert "lost race: 1 of 1 (" in out
+    # the worst sample's value with its unit: 0.5 m/s
+    assert "trains.t1.speed = 0.5 m/s" in out
+
+
+def test_worst_sample_times_are_printed_in_ms():
+    """The worst sample of the uniform race has T = 4 ms - margin; printed in ms with 3
+    decimals (not in raw seconds)."""
+    res = sweep(load(FILE), samples=40)
+    w = res.summary["gaps"][0]["worst"]
+    t_ms = w["inputs"]["reversers.rev.swap_time"] * 1e3
+    assert f"reversers.rev.swap_time = {t_ms:.3f} ms" in res.text()
+
+
+def _children(pid: int) -> set[int]:
+    """The live child processes of ``pid`` (Linux /proc)."""
+    out: set[int] = set()
+    try:
+        for task in os.listdir(f"/proc/{pid}/task"):
+            with open(f"/proc/{pid}/task/{task}/children") as fh:
+                out.update(int(x) for x in fh.read().split())
+    except OSError:
+        pass
+    return out
+
+
+def _alive(pid: int) -> bool:
+    try:
+        with open(f"/proc/{pid}/stat") as fh:
+            return fh.read().split(")")[-1].split()[0] != "Z"    # a zombie is dead
+    except OSError:
+        return False
+
+
+@pytest.mark.skipif(not sys.platform.startswith("linux"), reason="reads /proc")
+@pytest.mark.parametrize("sig", [signal.SIGTERM, signal.SIGKILL], ids=["TERM", "KILL"])
+def test_workers_die_with_the_sweep(tmp_path, sig):
+    """Kill a --jobs 2 sweep while its workers run: both workers end too (within the
+    watch period of 0.5 s plus slack; the kernel's parent-death signal ends them at once
+    on Linux), and --resume goes on from the store."""
+    store = str(tmp_path / "w.sqlite")
+    base = [sys.executable, "-m", "sim.cli", "sweep", FILE, "--samples", "3000", "--jobs", "2",
+            "--store", store, "--json"]
+    proc = subprocess.Popen(base, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
+    deadline = time.monotonic() + 120
+    workers: set[int] = set()
+    while time.monotonic() < deadline and proc.poll() is None:
+        workers = _children(proc.pid)
+        if len(workers) >= 2 and _count(store) > 0:
+            break
+        time.sleep(0.05)
+    assert proc.poll() is None and len(workers) >= 2, "the sweep did not start its workers"
+    os.kill(proc.pid, sig)
+    proc.wait(timeout=60)
+    deadline = time.monotonic() + 10
+    while time.monotonic() < deadline and any(_alive(w) for w in workers):
+        time.sleep(0.05)
+    left = [w for w in workers if _alive(w)]
+    for w in left:                                 # clean up before failing
+        os.kill(w, signal.SIGKILL)
+    assert not left, f"workers {left} outlived the sweep killed by {sig.name}"
+
+
+def test_a_gap_crossed_in_phase_says_so():
+    """rev-sec wired normal (in phase with main): the pickup crosses main.b~rev-sec.a
+    with no short. At 0.5 m/s it gets there at 0.375 m / 0.5 m/s = 0.75 s, inside the 1 s
+    run; at 0.1 m/s only at 3.75 s, after it: crossed in phase in 1 of 2 samples."""
+    text = open(FILE).read().replace("leads: swapped", "leads: normal").replace(
+        "reversers.rev.swap_time: {uniform: [1 ms, 5 ms]}", "trains.t1.speed: [0.1 m/s, 0.5 m/s]")
+    res = sweep(loads(text, FILE))
+    g = res.summary["gaps"][0]
+    assert (g["reached"], g["crossed_in_phase"]) == (0, 1)
+    assert [r["crossed"] for r in res.records] == [[], [GAP]]
+    assert "crossed in phase (no short) in 1 of 2 samples, never with a short: no race to " \
+           "judge" in res.text()
+
+
+def test_store_keeps_the_crossed_gaps(tmp_path):
+    """The store gives back each sample's crossed gaps: the summary from it equals the
+    one made in memory (the speeds of test_a_gap_crossed_in_phase_says_so)."""
+    text = open(FILE).read().replace("leads: swapped", "leads: normal").replace(
+        "reversers.rev.swap_time: {uniform: [1 ms, 5 ms]}", "trains.t1.speed: [0.1 m/s, 0.5 m/s]")
+    f = tmp_path / "crossed.yaml"
+    f.write_text(text, encoding="utf-8")
+    mem = sweep(load(str(f)))
+    kept = sweep(load(str(f)), store=str(tmp_path / "c.sqlite"))
+    assert json.dumps(kept.summary) == json.dumps(mem.summary)
+    assert kept.summary["gaps"][0]["crossed_in_phase"] == 1

@@ -1,7 +1,9 @@
 """Districts dark for most of the run: which cause keeps each one dark.
 
-A device whose output was off for at least :data:`sim.diagnose.facts.DARK_MOST`
-of the simulated time (``DeviceSummary.dark_s``) heads the run. It is charged to
+A device whose own output was off for at least :data:`sim.diagnose.facts.DARK_MOST`
+of the simulated time (``DeviceSummary.dark_s``) heads the run, with the time its
+district was dark (``DeviceSummary.district_dark_s``: it or a device above it
+off, the figure a club means by "dark"; :mod:`sim.diagnose.runlog`). It is charged to
 the worst cause that darkens it (one that is not the protection at work before
 one that is; errors before warnings), whose finding then says so. The
 verdict rule (issue: a run in which a district is dark for most of the time
@@ -26,8 +28,10 @@ __all__ = ["attribute_dark", "dark_text"]
 
 
 def dark_text(facts: RunFacts, device: str) -> str:
-    """``booster east dark for 27.304 s of 30.000 s (91 %)``."""
-    d = facts.dark_s(device)
+    """``booster east dark for 27.304 s of 30.000 s (91 %)``: the time its district had
+    no power (it or a device above it off: :meth:`RunFacts.district_dark_s`), the one
+    figure of a district's dark time."""
+    d = facts.district_dark_s(device)
     return (f"{facts.named(device)} dark for {dur_text(d)} of {dur_text(facts.t_end_s)} "
             f"({share_text(d, facts.t_end_s)})")
 
@@ -40,7 +44,7 @@ def attribute_dark(facts: RunFacts, causes: list[Cause]) -> list[Cause]:
     accounts for.
     """
     dark = sorted((d for d in facts.devices if facts.dark_most(d)),
-                  key=lambda d: (-facts.dark_s(d), d))
+                  key=lambda d: (-facts.district_dark_s(d), d))
     extra = []
     for dev in dark:
         cands = [c for c in causes if dev in c.dark]
@@ -57,7 +61,7 @@ def attribute_dark(facts: RunFacts, causes: list[Cause]) -> list[Cause]:
         c.darkened.append(dev)
         if not c.protection:
             c.escalate("error")
-        dark_s = facts.dark_s(dev)
+        dark_s = facts.district_dark_s(dev)
         if f"dark for {dur_text(dark_s)}" not in c.finding.message:
             c.finding = replace(c.finding, message=f"{c.finding.message}; {text}")
     return extra

@@ -15,8 +15,11 @@ rebuilt, its ``headline`` and its verdict (:func:`sim.verdict.decide`):
    a group whose episodes a cause explains follows from it (``because``, its
    severity no worse than the cause's); the others are causes of their own;
 3. long let-throughs, the engine's own findings (grouped), districts dark for
-   most of the run (:mod:`sim.diagnose.dark`) and the static errors that say a
-   short is never cleared (:mod:`sim.diagnose.static`) are added;
+   most of the run (:mod:`sim.diagnose.dark`), trains that stood without power
+   for long (:mod:`sim.diagnose.stands`, tied to the cause that took their
+   power) and every static error of
+   ``railfault check`` that no run cause restates (:mod:`sim.diagnose.static`)
+   are added;
 4. the causes are ranked (:mod:`sim.diagnose.headline`): the findings list each
    cause followed by what follows from it, worst first.
 """
@@ -35,7 +38,9 @@ from sim.diagnose.facts import RunFacts
 from sim.diagnose.groups import EpisodeGroup, SymptomGroup, symptom_groups
 from sim.diagnose.headline import headline_lines, rank_causes
 from sim.diagnose.reported import group_reported
-from sim.diagnose.static import never_cleared, static_findings
+from sim.diagnose.cause import ref
+from sim.diagnose.stands import ENGINE_CODE as STAND_ENGINE_CODE, engine_stand_owner, find_stands
+from sim.diagnose.static import static_errors, static_findings
 from sim.diagnose.symptoms import SYMPTOM_CODES
 from sim.model import Finding, Scenario
 from sim.verdict import decide, severity_rank
@@ -101,14 +106,30 @@ def diagnose_facts(facts: RunFacts) -> Diagnosis:
             causes.append(lt)
     # the engine's own findings: tied to the lock-out cause of their device, or their own
     lockouts = {c.finding.where: c for c in specific if c.finding.code == "RF-RUN-034"}
+    engine_stands = []
     for f in group_reported(facts.engine_findings):
+        if f.code == STAND_ENGINE_CODE:
+            engine_stands.append(f)          # tied to their stand's cause below
+            continue
         owner = lockouts.get(f.where) if f.code == INRUSH_CODE else None
         if owner is None:
             causes.append(Cause(f, f"{f.where}: {f.message}"))
         else:
             reported.append((f, owner))
     causes.extend(attribute_dark(facts, causes))
-    static = never_cleared(facts.static, specific)
+    # trains that stood without power for long: tied to the cause that took their power
+    for f, owner in find_stands(facts, causes):
+        if owner is None:
+            causes.append(Cause(f, f.message))
+        else:
+            reported.append((f, owner))
+    for f in engine_stands:
+        owner = engine_stand_owner(facts, f, causes)
+        if owner is None:
+            causes.append(Cause(f, f"{f.where}: {f.message}"))
+        else:
+            reported.append((f, owner))
+    static = static_errors(facts.static, specific)
     ranked = rank_causes(facts, causes)
     findings: list[Finding] = []
     for c in ranked:
@@ -117,7 +138,10 @@ def diagnose_facts(facts: RunFacts) -> Diagnosis:
                      for sg, owner in follows if owner is c]
         findings += [_capped(_timed(f, c), c) for f, owner in reported if owner is c]
         findings += [f for f in static if f.because == c.ref]
-    findings += [f for f in static if not f.because]
+    for f in static:
+        if not f.because:
+            findings.append(f)
+            findings += [g for g in static if g.because == ref(f)]
     return Diagnosis(findings, headline_lines(facts, ranked, static), ranked)
 
 
@@ -140,7 +164,8 @@ def diagnose(scn: Scenario, result, layout=None, static: Optional[list] = None,
     Returns
     -------
     sim.trace.Result
-        A copy of ``result`` with ``findings``, ``headline`` and ``verdict`` set.
+        A copy of ``result`` with ``findings``, ``headline`` and ``verdict`` set, and
+        each device's ``district_dark_s``.
     """
     if layout is None:
         from sim.layout import build_layout
@@ -151,6 +176,10 @@ def diagnose(scn: Scenario, result, layout=None, static: Optional[list] = None,
     facts = RunFacts(scn=scn, layout=layout, episodes=list(result.episodes),
                      devices=dict(result.devices), summary=result.summary,
                      engine_findings=[f for f in result.findings if f.code not in SYMPTOM_CODES],
-                     static=list(static), t_end_s=result.t_end_s)
+                     static=list(static), t_end_s=result.t_end_s,
+                     log=getattr(result, "log", None))
     d = diagnose_facts(facts)
-    return replace(result, findings=d.findings, headline=d.headline, verdict=decide(d.findings))
+    devices = {n: replace(s, district_dark_s=facts.district_dark_s(n))
+               if hasattr(s, "district_dark_s") else s for n, s in result.devices.items()}
+    return replace(result, findings=d.findings, headline=d.headline, verdict=decide(d.findings),
+                   devices=devices)

@@ -50,6 +50,10 @@ class RunFacts:
         The findings of ``railfault check`` for this scenario.
     t_end_s : float
         Where the run stopped.
+    log : sim.diagnose.runlog.RunLog, optional
+        The run's stands of trains and district dark time (``Result.log``);
+        ``None`` for facts made without a run (then a district's dark time is its
+        device's own and no train stood).
     """
 
     scn: Scenario
@@ -60,8 +64,10 @@ class RunFacts:
     engine_findings: list
     static: list
     t_end_s: float
+    log: Any = None
     _joints: dict = field(default_factory=dict, repr=False)
     _phases: Optional[dict] = field(default=None, repr=False)
+    _margins: Optional[dict] = field(default=None, repr=False)
 
     def __post_init__(self):
         self._joints = {j.name: j for j in self.scn.track.joints}
@@ -89,6 +95,16 @@ class RunFacts:
             return None
         return ph[x] != joint.sign * ph[y]
 
+    def static_margins(self) -> dict:
+        """``{reversing device: {upstream device: static margin}}``: each upstream
+        device's earliest trip less the device's latest clear
+        (:func:`sim.checks.coordination.reversing_margins`)."""
+        if self._margins is None:
+            from sim.checks.coordination import reversing_margins
+
+            self._margins = reversing_margins(self.scn, self.layout)
+        return self._margins
+
     def reversing_device(self, section: str) -> Optional[str]:
         """The device that changes the polarity of ``section``: the reversing controller
         in its chain, else a booster with ``reverse_on_short`` (``None``: fixed)."""
@@ -111,15 +127,15 @@ class RunFacts:
                 out[r] = e.section
         return tuple(out.items())
 
-    def phasing_finding(self, joint: Joint) -> Optional[Finding]:
-        """The static RF-PHS-001 finding that mends ``joint`` (the one naming it, or the
-        only one there is)."""
+    def phasing_finding(self, joint: Joint, naming: bool = False) -> Optional[Finding]:
+        """The static RF-PHS-001 finding that mends ``joint`` (the one naming it, or -
+        unless ``naming`` - the only one there is)."""
         phs = self.static_with("RF-PHS-001")
         pat = re.compile(r"(?<![\w.~-])" + re.escape(joint.name) + r"(?![\w.~-])")
         for f in phs:
             if pat.search(f.message) or pat.search(f.where):
                 return f
-        return phs[0] if len(phs) == 1 else None
+        return phs[0] if len(phs) == 1 and not naming else None
 
     def chain(self, section: str) -> tuple[str, ...]:
         """The devices feeding ``section``, nearest first (supplies included)."""
@@ -143,6 +159,12 @@ class RunFacts:
     def kind(self, device: str) -> str:
         """``booster``, ``breaker``, ``reverser``, ``supply`` (or ``device``)."""
         return self.scn.device_kind(device) or "device"
+
+    def table(self, device: str) -> str:
+        """The file's table of ``device``: ``boosters``, ``breakers``, ``reversers``,
+        ``supplies``."""
+        return {"booster": "boosters", "breaker": "breakers", "reverser": "reversers",
+                "supply": "supplies"}.get(self.kind(device), "devices")
 
     def named(self, device: str) -> str:
         """``breaker yard``: a device with its kind."""
@@ -169,8 +191,17 @@ class RunFacts:
 
     # ---------------------------------------------------------- devices
     def dark_s(self, device: str) -> float:
+        """The time ``device``'s own output was off (``DeviceSummary.dark_s``)."""
         d = self.devices.get(device)
         return float(getattr(d, "dark_s", 0.0) or 0.0) if d is not None else 0.0
+
+    def district_dark_s(self, device: str) -> float:
+        """The time ``device``'s district had no power: it or a device above it off
+        (:class:`sim.diagnose.runlog.RunLog`); its own dark time without a log."""
+        own = self.dark_s(device)
+        if self.log is None:
+            return own
+        return max(own, self.log.district_dark_s(device, self.t_end_s))
 
     def dark_most(self, device: str) -> bool:
         """Whether ``device`` was dark for most of the run (:data:`DARK_MOST`)."""
@@ -187,3 +218,68 @@ class RunFacts:
     def static_with(self, code: str) -> list[Finding]:
         """The static findings with ``code``."""
         return [f for f in self.static if f.code == code]
+
+    def static_ref(self, codes, where: Optional[str] = None, names=()) -> str:
+        """``"CODE where"`` of the first static *error* with one of ``codes`` (in the
+        order given) at ``where`` (any place when ``None``) whose message names every
+        one of ``names`` as a word: the ``railfault check`` finding a run cause
+        restates (its ``same_as``), or "" when there is none."""
+        from sim.diagnose.cause import ref
+
+        pats = [re.compile(r"(?<![\w.~-])" + re.escape(n) + r"(?![\w~-])") for n in names]
+        for code in ([codes] if isinstance(codes, str) else codes):
+            for f in self.static:
+                if f.code != code or f.severity != "error":
+                    continue
+                if where is not None and f.where != where:
+                    continue
+                if all(p.search(f.message) for p in pats):
+                    return ref(f)
+        return ""
+
+    # ---------------------------------------------------------- trains
+    def plans(self) -> dict:
+        """``{train: TrainPlan}``: the closed-form plans the run played
+        (:func:`sim.world.trains.build_trains`), built once."""
+        key = "diagnose_plans"
+        cache = getattr(self.layout, "cache", None)
+        if cache is not None and key in cache:
+            return cache[key]
+        from sim.world.trains import build_trains
+
+        plans = build_trains(self.scn, self.layout) if self.scn.trains else {}
+        if cache is not None:
+            cache[key] = plans
+        return plans
+
+    def stood_before_s(self, train: str, t_s: float) -> float:
+        """How long ``train`` stood without power before ``t_s`` (the log's stands)."""
+        if self.log is None:
+            return 0.0
+        total = 0.0
+        for st in self.log.stands:
+            if st.train != train or st.t_stop_s >= t_s:
+                continue
+            end = st.t_go_s if st.t_go_s is not None else t_s
+            total += min(end, t_s) - st.t_stop_s
+        return total
+
+    def locos_at(self, t_s: float, sections) -> list:
+        """The locomotives in ``sections`` at ``t_s`` (:class:`sim.checks.draw.LocoInterval`).
+
+        From the trains' schedules in closed form (:func:`sim.checks.draw.loco_intervals`,
+        the motion the run plays), each train's clock held back by the time it stood
+        without power before ``t_s`` (a train stands still while it has no power and
+        then goes on at its speed, so it is where its schedule puts it that much later).
+        """
+        from sim.checks.draw import loco_intervals
+
+        secs = set(sections)
+        out = []
+        for iv in loco_intervals(self.scn, self.layout):
+            if iv.section not in secs:
+                continue
+            tau = t_s - self.stood_before_s(iv.train, t_s)
+            if iv.t_on_s <= tau < iv.t_off_s:
+                out.append(iv)
+        return out

@@ -17,7 +17,8 @@ from typing import Iterable, Optional
 
 from sim.diagnose.facts import ep_get
 from sim.diagnose.symptoms import episode_findings
-from sim.diagnose.text import a2s_text, a_text, plural, signed_ms_text, t_text
+from sim.diagnose.text import (a2s_text, a_text, dur_text, ms_text, plural, signed_ms_text,
+                               t_text)
 from sim.model import Finding
 
 __all__ = ["EpisodeGroup", "SymptomGroup", "symptom_groups", "place_word"]
@@ -26,6 +27,11 @@ __all__ = ["EpisodeGroup", "SymptomGroup", "symptom_groups", "place_word"]
 def place_word(kind: str) -> str:
     """How a place of an episode kind is named: ``gap``, ``fault``, ``device``."""
     return {"gap": "gap", "fault": "fault", "overload": "overload of"}.get(kind, kind)
+
+
+def _delay(t_s: float) -> str:
+    """A delay after an onset: in ms below 1 s, else in s."""
+    return ms_text(t_s) if t_s < 1.0 else dur_text(t_s)
 
 
 @dataclass
@@ -88,10 +94,34 @@ class EpisodeGroup:
         return "; ".join(f"{n} {p}" for p, n in sorted(by.items(), key=lambda kv: -kv[1]))
 
     def span_text(self) -> str:
-        """``from 2.650000 s to 24.694000 s`` (or ``at 2.650000 s`` for one)."""
+        """``from 2.650000 s to 24.694000 s`` (or ``at 2.650000 s`` for one), and when
+        the first device acted after the onset: ``at 30.000000 s, north acted at 30.003913 s,
+        3.913 ms after the onset`` (a short's start is its onset, not the trip)."""
         if self.count == 1:
-            return f"at {t_text(self.first_s)}"
-        return f"from {t_text(self.first_s)} to {t_text(self.last_s)}"
+            span = f"at {t_text(self.first_s)}"
+        else:
+            span = f"from {t_text(self.first_s)} to {t_text(self.last_s)}"
+        return span + self.acted_text()
+
+    def acted_text(self) -> str:
+        """``, north acted at 30.003913 s, 3.913 ms after the onset`` for one episode
+        (``, north acted 3.900 ms to 3.913 ms after each onset`` for several): when the
+        first device acted (a trip, a supply switching off or browning out, a swap) -
+        a short's start is its onset, not the trip."""
+        rows = [(e.acted, e.acted_s, e.acted_s - e.start_s) for e in self.episodes
+                if e.acted and e.acted_s is not None
+                and e.outcome in ("tripped", "dropout", "swapped")]
+        if not rows:
+            return ""
+        devs = list(dict.fromkeys(d for d, _, _ in rows))
+        lo, hi = min(dt for _, _, dt in rows), max(dt for _, _, dt in rows)
+        who = devs[0] if len(devs) == 1 else "the first device"
+        if hi < 5e-10:
+            return f", {who} acted at once"
+        if len(rows) == 1:
+            return f", {who} acted at {t_text(rows[0][1])}, {_delay(lo)} after the onset"
+        when = _delay(lo) if hi - lo < 5e-10 else f"{_delay(lo)} to {_delay(hi)}"
+        return f", {who} acted {when} after each onset"
 
     def figures_text(self) -> str:
         """Worst margin, peak current and let-through, with their units."""
@@ -108,9 +138,16 @@ class EpisodeGroup:
         return "; ".join(parts)
 
     def describe(self) -> str:
-        """``23 shorts, every one tripped east-bst first (from ... to ...; worst margin
-        -3.500 ms; peak 52.92 A)``."""
-        who = f" of train {', '.join(self.trains)}" if self.trains else ""
+        """``23 shorts, every one tripped east-bst first (from ... to ..., east-bst acted
+        3.000 ms after each onset; worst margin -3.500 ms; peak 52.92 A)``."""
+        trains = self.trains
+        n_of = sum(1 for e in self.episodes if e.train)
+        if trains and n_of == self.count:
+            who = f" of train {', '.join(trains)}"
+        elif trains:
+            who = f" ({n_of} of train {', '.join(trains)})"
+        else:
+            who = ""
         return (f"{self.noun()}{who}, {self.outcome_text()} ({self.span_text()}; "
                 f"{self.figures_text()})")
 

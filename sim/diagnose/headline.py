@@ -10,14 +10,16 @@ Order (worst first):
 
 A line is the cause's own short text, led by the dark district when there is
 one: ``booster east-bst dark for 27.304 s of 30.000 s (91 %): gap
-loop1.b~loop2.a meets out of phase ...``. The static errors that say a short is
-never cleared, when no run cause accounts for them, share one line.
+loop1.b~loop2.a meets out of phase ...``. The static errors no run cause
+accounts for: those that say a short is never cleared share one line, after
+the districts kept dark; the others share the last line.
 """
 from __future__ import annotations
 
 from sim.diagnose.cause import Cause
 from sim.diagnose.dark import dark_text
 from sim.diagnose.facts import RunFacts
+from sim.diagnose.static import NEVER_CLEARED
 from sim.model import Finding
 from sim.verdict import severity_rank
 
@@ -25,7 +27,7 @@ __all__ = ["rank_causes", "headline_lines"]
 
 
 def _rank(facts: RunFacts, c: Cause) -> tuple:
-    share = max((facts.dark_s(d) for d in c.darkened), default=0.0)
+    share = max((facts.district_dark_s(d) for d in c.darkened), default=0.0)
     sev = severity_rank(c.finding.severity)
     if c.darkened and not c.protection:
         group = 0
@@ -44,30 +46,42 @@ def rank_causes(facts: RunFacts, causes: list[Cause]) -> list[Cause]:
     return sorted(causes, key=lambda c: _rank(facts, c))
 
 
-def _static_line(static: list[Finding]) -> str | None:
+def _place(where: str) -> str:
+    """A static finding's place, short: its key path without the line, and a section
+    without ``track.sections.``."""
+    place = where.split(" ")[0]
+    return place[len("track.sections."):] if place.startswith("track.sections.") else place
+
+
+def _static_lines(static: list[Finding]) -> list[str]:
+    """The static errors no run cause accounts for: those that say a short is never
+    cleared on one line, the others on another."""
     loose = [f for f in static if not f.because]
-    if not loose:
-        return None
-    by_code: dict[str, list[str]] = {}
-    for f in loose:
-        place = f.where.split(" ")[0]
-        if place.startswith("track.sections."):
-            place = place[len("track.sections."):]
-        by_code.setdefault(f.code, []).append(place)
-    return ("railfault check finds shorts that are never cleared: "
-            + "; ".join(f"{code} {', '.join(ws)}" for code, ws in by_code.items()))
+    out = []
+    for never, head in ((True, "railfault check finds shorts that are never cleared: "),
+                        (False, "railfault check also finds: ")):
+        by_code: dict[str, list[str]] = {}
+        for f in loose:
+            if (f.code in NEVER_CLEARED) == never:
+                by_code.setdefault(f.code, []).append(_place(f.where))
+        if by_code:
+            out.append(head + "; ".join(f"{code} {', '.join(dict.fromkeys(ws))}"
+                                        for code, ws in by_code.items()))
+    return out
 
 
 def headline_lines(facts: RunFacts, ranked: list[Cause], static: list[Finding]) -> list[str]:
     """One line per cause that is a problem or darkens a district, worst first (module
-    docstring); the static never-cleared errors no cause accounts for share one line,
-    after the dark districts."""
+    docstring); the static errors no cause accounts for share a line or two, after
+    the dark districts."""
     lines = []
-    static_line = _static_line(static)
+    static_lines = _static_lines(static)
+    also = [x for x in static_lines if x.startswith("railfault check also")]
+    static_lines = [x for x in static_lines if x not in also]
     for c in ranked:
-        if static_line and not (c.darkened and not c.protection):
-            lines.append(static_line)
-            static_line = None
+        if static_lines and not (c.darkened and not c.protection):
+            lines += static_lines
+            static_lines = []
         if severity_rank(c.finding.severity) > 1 and not c.darkened:
             continue
         if c.darkened:
@@ -78,6 +92,4 @@ def headline_lines(facts: RunFacts, ranked: list[Cause], static: list[Finding]) 
                 lines.append(f"{lead}: {c.headline}")
         else:
             lines.append(c.headline)
-    if static_line:
-        lines.append(static_line)
-    return lines
+    return lines + static_lines + also

@@ -9,7 +9,12 @@ builds the shared parts once, however many batches it runs.
 
 - :class:`InlineExecutor`: ``--jobs 1``, in this process, on the scenario
   already loaded.
-- :class:`PoolExecutor`: ``--jobs J``, a :class:`concurrent.futures.ProcessPoolExecutor`.
+- :class:`PoolExecutor`: ``--jobs J``, a :class:`concurrent.futures.ProcessPoolExecutor`
+  whose workers die with the sweep: killed (SIGTERM, SIGKILL) it cannot shut its
+  pool down, so each worker watches it itself (:func:`die_with_parent`: the
+  kernel's parent-death signal on Linux, ``prctl(2)`` ``PR_SET_PDEATHSIG``, and a
+  thread that checks every :data:`PARENT_POLL_S` that its parent is still the
+  sweep); ``--resume`` then goes on from the store.
 - :class:`DaskExecutor`: ``--cluster tcp://HOST:PORT``, a Dask distributed
   scheduler (the optional extra ``railfault[cluster]``); the text is scattered
   to the workers once.
@@ -20,17 +25,56 @@ million samples holds a few thousand samples' inputs in memory, not all.
 from __future__ import annotations
 
 import hashlib
+import os
+import signal
+import sys
+import threading
+import time
 from typing import Iterable, Iterator, Optional
 
 from sim.errors import Problem, ScenarioError
 
 __all__ = ["InlineExecutor", "PoolExecutor", "DaskExecutor", "worker_runner", "run_batch",
-           "make_executor"]
+           "make_executor", "die_with_parent"]
 
 #: Batches in flight per worker.
 IN_FLIGHT_PER_WORKER = 3
 
 _RUNNERS: dict = {}
+
+#: How often a pool worker checks that the sweep that started it still runs (s).
+PARENT_POLL_S = 0.5
+
+#: ``prctl(2)`` option: the signal a process gets when its parent dies (Linux).
+_PR_SET_PDEATHSIG = 1
+
+
+def die_with_parent(parent_pid: int) -> None:
+    """Make this worker process end when ``parent_pid`` (the sweep) ends.
+
+    A pool initializer (module docstring). On Linux the kernel sends SIGKILL at
+    once when the parent dies (``prctl(PR_SET_PDEATHSIG)``); everywhere a daemon
+    thread ends the process within :data:`PARENT_POLL_S` once its parent is no
+    longer ``parent_pid`` (re-parented to PID 1 or a subreaper).
+    """
+    if sys.platform.startswith("linux"):
+        try:
+            import ctypes
+
+            libc = ctypes.CDLL(None, use_errno=True)
+            libc.prctl(_PR_SET_PDEATHSIG, int(signal.SIGKILL), 0, 0, 0)
+        except (OSError, AttributeError):
+            pass                                   # the thread below still watches
+    if os.getppid() != parent_pid:                 # died before prctl took effect
+        os._exit(1)
+
+    def watch() -> None:
+        while True:
+            time.sleep(PARENT_POLL_S)
+            if os.getppid() != parent_pid:
+                os._exit(1)
+
+    threading.Thread(target=watch, name="railfault-parent-watch", daemon=True).start()
 
 
 def worker_runner(text: str, path: str, paths: dict):
@@ -94,7 +138,8 @@ class PoolExecutor:
 
         self.jobs = int(jobs)
         self.args = (text, path, dict(paths))
-        self.pool = ProcessPoolExecutor(max_workers=self.jobs)
+        self.pool = ProcessPoolExecutor(max_workers=self.jobs, initializer=die_with_parent,
+                                        initargs=(os.getpid(),))
 
     def map(self, batches: Iterable[list]) -> Iterator[list[dict]]:
         from concurrent.futures import FIRST_COMPLETED, wait

@@ -14,6 +14,13 @@ the joint ``x.b~y.a``) are the races there. Following the run's verdict rule
 whether a race there was lost or failed, and how many episodes it had. The
 episode fields read are those of the result contract (``kind``, ``where``,
 ``outcome``, ``margin_s``); any other field is read with a default.
+
+:func:`crossed_gaps` gives the gapped joints some train's wheels bridged in the
+run, with a short there or not: by the train's schedule in closed form
+(:class:`sim.world.trains.Motion`, the motion the run plays) up to the train's
+first stop without power (the run's stands, :class:`sim.diagnose.runlog.RunLog`:
+after it the run leaves the schedule, so nothing later is counted). A gap a
+sample crossed with no gap episode was crossed in phase.
 """
 from __future__ import annotations
 
@@ -21,7 +28,7 @@ import math
 from typing import Iterable, Optional
 
 __all__ = ["LOST_OUTCOMES", "reversing_sections", "reversing_gaps", "gap_record",
-           "run_record", "lost", "failing"]
+           "run_record", "lost", "failing", "crossed_gaps"]
 
 #: Outcomes of a gap episode that lose the race.
 LOST_OUTCOMES = frozenset({"tripped", "dropout", "unresolved"})
@@ -97,3 +104,30 @@ def run_record(result, t_margin_required_s: Optional[float] = None) -> dict:
     dark = {n: float(d.dark_s) for n, d in sorted(result.devices.items()) if d.dark_s > 0}
     return {"verdict": result.verdict, "gaps": gap_record(result.episodes, need),
             "trips": trips, "dark_s": dark}
+
+
+def crossed_gaps(scn, layout, result) -> list[str]:
+    """The gapped joints a train bridged in ``result``'s run (module docstring), sorted."""
+    import math
+
+    from sim.world.trains import Motion, build_trains
+
+    if not scn.trains:
+        return []
+    t_end_s = result.t_end_s or scn.duration_s
+    first_stop: dict = {}
+    log = getattr(result, "log", None)
+    for st in (log.stands if log is not None else ()):
+        first_stop[st.train] = min(first_stop.get(st.train, math.inf), st.t_stop_s)
+    joints = scn.track.joints
+    out = set()
+    for name, plan in build_trains(scn, layout).items():
+        motion = Motion(plan)
+        until_s = min(t_end_s, first_stop.get(name, math.inf))
+        for span in plan.spans:
+            j = joints[span.joint_index]
+            if j.gaps == "none" or j.name in out:
+                continue
+            if motion.arrival_s(span.s_on_m) <= until_s:
+                out.add(j.name)
+    return sorted(out)

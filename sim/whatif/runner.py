@@ -19,7 +19,7 @@ from __future__ import annotations
 from typing import Mapping
 
 from sim.errors import ScenarioError, TopologyError
-from sim.whatif.outcome import run_record
+from sim.whatif.outcome import crossed_gaps, run_record
 from sim.whatif.paths import PathError, apply_all, reuse_of
 
 __all__ = ["Runner"]
@@ -58,6 +58,10 @@ class Runner:
     def result(self, values: Mapping[str, object]):
         """The diagnosed :class:`sim.trace.Result` of the base with ``values`` applied:
         the verdict and findings of ``railfault run`` on that scenario."""
+        return self._played(values)[0]
+
+    def _played(self, values: Mapping[str, object]):
+        """``(diagnosed result, scenario)`` of the base with ``values`` applied."""
         from sim.diagnose import diagnose
         from sim.world import World
 
@@ -66,15 +70,21 @@ class Runner:
         if circuit is not None:
             circuit.rewind()
         res = World(scn, layout=self.layout, circuit=circuit).run()
-        return diagnose(scn, res, layout=self.layout, static=self.static)
+        return diagnose(scn, res, layout=self.layout, static=self.static), scn
 
     def record(self, i: int, values: Mapping[str, object]) -> dict:
         """The sweep's row of sample ``i``: inputs, verdict, gaps, trips (or ``invalid``)."""
         row = {"i": int(i), "inputs": dict(values)}
         try:
-            res = self.result(values)
+            res, scn = self._played(values)
+            layout = self.layout
+            if layout is None:
+                from sim.layout import build_layout
+                layout = build_layout(scn)
+            crossed = crossed_gaps(scn, layout, res)
         except (ScenarioError, PathError, TopologyError) as exc:
             row["invalid"] = str(exc).splitlines()[0] if str(exc) else type(exc).__name__
             return row
         row.update(run_record(res))
+        row["crossed"] = crossed
         return row

@@ -5,10 +5,14 @@ Layout (format ``railfault-sweep-store/1``)::
     meta(key TEXT PRIMARY KEY, value TEXT)      -- written once, when the store is made:
         format, scenario_path, scenario_sha256, scenario_text, settings (JSON)
     samples(idx INTEGER PRIMARY KEY,            -- one row per finished sample
-            inputs TEXT, verdict TEXT, gaps TEXT, trips TEXT, dark_s TEXT, invalid TEXT)
+            inputs TEXT, verdict TEXT, gaps TEXT, trips TEXT, dark_s TEXT, invalid TEXT,
+            crossed TEXT)
 
-``inputs``, ``gaps``, ``trips`` and ``dark_s`` are JSON (``gaps``: per gap the
-least margin in s, whether a race was lost or failed, and the episode count).
+``inputs``, ``gaps``, ``trips``, ``dark_s`` and ``crossed`` are JSON (``gaps``: per
+gap the least margin in s, whether a race was lost or failed, and the episode
+count; ``crossed``: the gaps a train crossed, with a short or not). A store made
+before ``crossed`` existed gets the column (empty) when it is opened to resume,
+and is read without it.
 Floats are written by Python's ``json`` (the shortest text that reads back to
 the same float), so a summary made from the store equals one made in memory.
 
@@ -49,9 +53,14 @@ CREATE TABLE IF NOT EXISTS samples (
     gaps TEXT,
     trips TEXT,
     dark_s TEXT,
-    invalid TEXT
+    invalid TEXT,
+    crossed TEXT
 );
 """
+
+
+def _columns(conn: sqlite3.Connection) -> set:
+    return {r[1] for r in conn.execute("PRAGMA table_info(samples)")}
 
 
 class StoreError(ScenarioError):
@@ -98,6 +107,8 @@ class Store:
             conn.close()
             raise StoreError(path, "not a railfault sweep store (other tables)")
         conn.executescript(_SCHEMA)
+        if "crossed" not in _columns(conn):            # a store of an older release
+            conn.execute("ALTER TABLE samples ADD COLUMN crossed TEXT")
         store = cls(path, conn)
         meta = store.meta()
         if not meta:
@@ -189,15 +200,18 @@ class Store:
     def records(self) -> list[dict]:
         """Every row as a sample record, by index."""
         out = []
-        for idx, inputs, verdict, gaps, trips, dark, invalid in self.conn.execute(
-                "SELECT idx, inputs, verdict, gaps, trips, dark_s, invalid FROM samples "
-                "ORDER BY idx"):
+        crossed_col = "crossed" if "crossed" in _columns(self.conn) else "NULL"
+        for idx, inputs, verdict, gaps, trips, dark, invalid, crossed in self.conn.execute(
+                f"SELECT idx, inputs, verdict, gaps, trips, dark_s, invalid, {crossed_col} "
+                f"FROM samples ORDER BY idx"):
             rec = {"i": idx, "inputs": json.loads(inputs)}
             if invalid is not None:
                 rec["invalid"] = invalid
             else:
                 rec.update(verdict=verdict, gaps=json.loads(gaps), trips=json.loads(trips),
                            dark_s=json.loads(dark))
+                if crossed is not None:
+                    rec["crossed"] = json.loads(crossed)
             out.append(rec)
         return out
 
@@ -211,14 +225,17 @@ class Store:
         rows = []
         for r in records:
             if "invalid" in r:
-                rows.append((r["i"], _dumps(r["inputs"]), None, None, None, None, r["invalid"]))
+                rows.append((r["i"], _dumps(r["inputs"]), None, None, None, None, r["invalid"],
+                             None))
             else:
                 rows.append((r["i"], _dumps(r["inputs"]), r["verdict"], _dumps(r["gaps"]),
-                             _dumps(r["trips"]), _dumps(r["dark_s"]), None))
+                             _dumps(r["trips"]), _dumps(r["dark_s"]), None,
+                             _dumps(r["crossed"]) if "crossed" in r else None))
         with self.conn:
             self.conn.execute("BEGIN IMMEDIATE")
             self.conn.executemany("INSERT INTO samples(idx, inputs, verdict, gaps, trips, "
-                                  "dark_s, invalid) VALUES (?, ?, ?, ?, ?, ?, ?)", rows)
+                                  "dark_s, invalid, crossed) VALUES (?, ?, ?, ?, ?, ?, ?, ?)",
+                                  rows)
 
     def close(self) -> None:
         self.conn.close()

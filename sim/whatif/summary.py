@@ -3,10 +3,15 @@
 Made from the sample records alone (sorted by index), so it is the same
 whatever ran them and in which order. For each gap (:mod:`sim.whatif.outcome`):
 
-- ``reached``: samples in which a train bridged it at least once;
+- ``reached``: samples in which a train bridged it with a short at least once;
+  ``crossed_in_phase``: samples in which a train crossed it with no short there
+  (:func:`sim.whatif.outcome.crossed_gaps`);
 - ``lost``: samples in which a race there was lost, with the Wilson 95 %
-  interval of the probability (:func:`sim.whatif.stats.wilson`) over the valid
-  samples; ``failing`` likewise (lost, or a margin below ``require.margin``);
+  interval of the probability (:func:`sim.whatif.stats.wilson`) over the
+  samples that *reached* the gap (``of`` is ``reached``: a sample in which no
+  train got there says nothing about the race); ``failing`` likewise (lost, or
+  a margin below ``require.margin``). A gap no sample reached has ``of`` 0 and
+  no interval: the text says "not reached in any sample: no conclusion";
 - ``margin_s``: the distribution of the gap's least margin per sample (min,
   quantiles, mean, max, a histogram of 20 equal bins);
 - ``worst``: the sample with the least margin (the lowest index among equals),
@@ -35,9 +40,11 @@ SWEEP_FORMAT = "railfault-sweep/1"
 HIST_BINS = 20
 
 
-def _proportion(k: int, n: int) -> dict:
+def _proportion(k: int, n: int, over: str = "valid") -> dict:
+    """``{count, of, p, ci95, over}``: ``over`` names what ``of`` counts (``valid``
+    samples, or those that ``reached`` a gap)."""
     lo, hi = wilson(k, n)
-    return {"count": k, "of": n, "p": (k / n) if n else None, "ci95": [lo, hi]}
+    return {"count": k, "of": n, "p": (k / n) if n else None, "ci95": [lo, hi], "over": over}
 
 
 def _histogram(values: list[float]) -> dict:
@@ -96,12 +103,17 @@ def summarize(scn, settings: dict, records: list[dict]) -> dict:
         with_m = [(r, r["gaps"][g]["margin_s"]) for r in valid
                   if g in r["gaps"] and r["gaps"][g]["margin_s"] is not None]
         margins = [m for _, m in with_m]
+        reached = sum(1 for r in valid if g in r["gaps"])
         row = {
             "gap": g, "section": section or None,
-            "reached": sum(1 for r in valid if g in r["gaps"]),
-            "lost": _proportion(sum(1 for r in valid if r["gaps"].get(g, {}).get("lost")), n),
+            "reached": reached,
+            "crossed_in_phase": sum(1 for r in valid if g not in r["gaps"]
+                                    and g in r.get("crossed", ())),
+            # over the samples that reached the gap (module docstring)
+            "lost": _proportion(sum(1 for r in valid if r["gaps"].get(g, {}).get("lost")),
+                                reached, "reached"),
             "failing": _proportion(sum(1 for r in valid if r["gaps"].get(g, {}).get("fail")),
-                                   n),
+                                   reached, "reached"),
             "margin_s": None, "worst": None, "drivers": [],
         }
         if margins:
@@ -154,7 +166,8 @@ def interval_text(prop: dict) -> str:
     k, n = prop["count"], prop["of"]
     lo, hi = prop["ci95"]
     if n == 0:
-        return "no valid sample"
+        return ("not reached in any sample: no conclusion" if prop.get("over") == "reached"
+                else "no valid sample")
     if k == 0:
         return f"none of {n} (below {percent(hi)} with 95 % confidence)"
     return f"{k} of {n} ({percent(prop['p'])}, 95 % CI {percent(lo)} to {percent(hi)})"
@@ -164,10 +177,18 @@ def _ms(x: Optional[float]) -> str:
     return "-" if x is None else f"{x * 1e3:+.3f} ms"
 
 
-def _value(v, unit: str) -> str:
-    if isinstance(v, float):
-        return f"{v:.6g} {unit}".rstrip()
-    return f"{v} {unit}".rstrip()
+def _value(key: str, v, unit: str) -> str:
+    """A varied value with its unit: times in ms (``0.293 ms``, not ``0.000292656 s``), a
+    sense phase as the share of a sample period it is (scenarios/README.md, ``sense``)."""
+    if isinstance(v, bool) or not isinstance(v, (int, float)):
+        return f"{v} {unit}".rstrip()
+    if unit == "s":
+        return f"{v * 1e3:.3f} ms"
+    if key.endswith(".phase"):
+        return f"{v:.3f} of a sample period"
+    if not unit:
+        return f"{v:.6g} (a number, no unit)"
+    return f"{v:.6g} {unit}"
 
 
 def render_summary(summary: dict) -> str:
@@ -191,7 +212,19 @@ def render_summary(summary: dict) -> str:
         head = f"Gap {g['gap']}" + (f" (reversing section {g['section']})" if g["section"]
                                      else "")
         lines.append(head)
-        lines.append(f"  reached in {g['reached']} of {s['valid']} samples")
+        crossed = g.get("crossed_in_phase", 0)
+        if not g["reached"]:
+            if crossed:
+                lines.append(f"  crossed in phase (no short) in {crossed} of {s['valid']} "
+                             f"samples, never with a short: no race to judge")
+            else:
+                lines.append(f"  not reached in any sample: no conclusion (no train bridged "
+                             f"it in any of {s['valid']} samples)")
+            lines.append("")
+            continue
+        more = f", crossed in phase (no short) in {crossed} more" if crossed else ""
+        lines.append(f"  reached in {g['reached']} of {s['valid']} samples{more}; of those "
+                     f"{g['reached']}:")
         lines.append(f"  lost race: {interval_text(g['lost'])}")
         if need > 0:
             lines.append(f"  lost or margin below the required {need * 1e3:.3f} ms: "
@@ -202,7 +235,7 @@ def render_summary(summary: dict) -> str:
                          f"{_ms(m['p50'])}, 95 % {_ms(m['p95'])}, max {_ms(m['max'])}")
             w = g["worst"]
             lines.append(f"  worst: sample {w['sample']}, margin {_ms(w['margin_s'])}, with "
-                         + ", ".join(f"{k} = {_value(v, units.get(k, ''))}"
+                         + ", ".join(f"{k} = {_value(k, v, units.get(k, ''))}"
                                      for k, v in w["inputs"].items()))
             if g["drivers"]:
                 rows = [[d["key"], "-" if d["spearman"] is None else f"{d['spearman']:+.3f}",

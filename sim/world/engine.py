@@ -150,6 +150,7 @@ import numpy as np
 
 from sim.circuit.incremental import SingularUpdate
 from sim.circuit.network import KirchhoffError
+from sim.diagnose.runlog import RunLog, stand_place
 from sim.model import Finding, Scenario
 from sim.trace import (DeviceSummary, Event, EventSummary, Result, decide, verdict_findings,
                        SUPPLY_TRIP_EVENTS, TRIP_EVENTS)
@@ -232,6 +233,7 @@ class World:
         self.env = Env()
         self.never = self.env.event()
         self.summary = EventSummary(keep_events)
+        self.log = RunLog.of(scn)             # stands of trains, district dark time
         self.layout = layout if layout is not None else build_layout(scn)
         self.circuit = circuit if circuit is not None else build_circuit(scn, self.layout)
         rng = np.random.default_rng(scn.seed)
@@ -425,6 +427,21 @@ class World:
 
     def record_train(self, t_s: float, name: str, event: str, data=None) -> None:
         self.record(Event(t_s, name, event) if data is None else Event(t_s, name, event, data))
+        self.log.train(t_s, name, event, stand_place(self, name) if event == "stop" else None)
+
+    def output_closed(self, dev: str) -> bool:
+        """Whether a device's output (or a supply) conducts, as last applied."""
+        st = self._out.get(dev)
+        return True if st is None else bool(st[0])
+
+    def chain_closed(self, chain) -> bool:
+        """Whether every device of a feed chain conducts (``output_closed`` of each)."""
+        out = self._out
+        for dev in chain:
+            st = out.get(dev)
+            if st is not None and not st[0]:
+                return False
+        return True
 
     # ------------------------------------------------ circuit state (cheap)
     def _digest(self, item) -> int:
@@ -1026,6 +1043,7 @@ class World:
     def _dark(self, name: str, t: float, conducting: bool) -> None:
         if self.traces is not None:
             self.traces.output(name, t, conducting)
+        self.log.output(name, t, conducting)
         since = self._dark_since[name]
         if not conducting and since is None:
             self._dark_since[name] = t
@@ -1097,6 +1115,7 @@ class World:
         t_end = self.t_end_s
         self.record(Event(t_end, "world", "end"))
         episodes = self.tracker.finish(t_end)
+        self.log.finish(t_end)
         if self.traces is not None:
             self.traces.finish(t_end)
         devices: dict[str, DeviceSummary] = {}
@@ -1128,7 +1147,7 @@ class World:
             duration_s=scn.duration_s, verdict=decide(findings), findings=findings,
             episodes=episodes, devices=devices,
             events=list(self.summary.events) if self.summary.keep_events else None,
-            summary=self.summary, t_end_s=t_end,
+            summary=self.summary, t_end_s=t_end, log=self.log,
             t_margin_required_s=scn.t_margin_required_s,
             stands=stands,
             stats={"events": self.summary.n_events, "solves": self.n_solves,

@@ -33,7 +33,7 @@ OUTCOME_WORDS = {
 }
 
 #: How a grouped symptom's message begins (it names its place itself).
-_PLACE_WORDS = ("gap ", "fault ", "overload of ", "static check")
+_PLACE_WORDS = ("gap ", "fault ", "overload of ", "static check", "train ")
 
 _UNITS = (("_ohm", "ohm", 4), ("_a", "A", 3), ("_v", "V", 3), ("_m", "m", 3))
 _WIDTH = 100
@@ -90,7 +90,10 @@ def _verdict_lines(result: Result) -> list[str]:
                 "with the required margin")
         head += f" ({plural(len(warnings), 'warning')}, see below)." if warnings else "."
     else:
-        n = len([f for f in causes if f.severity == "error"]) or len(errors)
+        # count what is printed: one headline line per cause (the static errors no run
+        # cause restates share a line)
+        n = len(result.headline) or len([f for f in causes if f.severity == "error"]) \
+            or len(errors)
         head = f"Verdict: FAIL - {plural(n, 'cause')} of trouble; the worst first:"
     out = [head]
     for i, line in enumerate(result.headline, 1):
@@ -115,6 +118,9 @@ def _finding_lines(result: Result) -> list[str]:
         out += _wrap(f.message, "          ", "          ")
         if f.fix:
             out += _wrap(f.fix, "          fix: ", "               ")
+        if getattr(f, "same_as", ""):
+            out += _wrap(f"{f.same_as} (railfault check's finding of the same cause: one "
+                         f"cause, listed once)", "          same as: ", "            ")
         for g in under.get(_ref(f), []) if f in causes else []:
             text = g.message if g.message.startswith(_PLACE_WORDS) else f"{g.where}: {g.message}"
             out += _wrap(f"{g.code} ({g.severity}) {text}",
@@ -199,12 +205,16 @@ def render_text(result: Result, detail: Optional[bool] = None) -> str:
     if result.devices:
         rows = []
         for name, d in sorted(result.devices.items()):
+            district = getattr(d, "district_dark_s", None)
             rows.append([name, d.kind, str(d.trips), str(d.swaps), str(d.restarts),
-                         _dur(d.dark_s), _a(d.peak_a),
+                         _dur(d.dark_s), _dur(district if district is not None else d.dark_s),
+                         _a(d.peak_a),
                          "-" if d.max_thermal is None
                          else f"{d.max_thermal * 100:.1f} % of rated heat"])
-        parts += ["Devices", _table(["device", "kind", "trips", "swaps", "restarts", "dark",
-                                     "peak", "max thermal"], rows), ""]
+        parts += ["Devices (dark: its own output off; district dark: it or a device above it "
+                  "off)",
+                  _table(["device", "kind", "trips", "swaps", "restarts", "dark", "district dark",
+                          "peak", "max thermal"], rows), ""]
     if result.events is not None:
         rows = [[_t(e.t_s), e.device, e.event, _data_text(e.data)] for e in result.events]
         parts += [f"Events ({len(rows)})", _table(["time", "device / place", "event", "details"],

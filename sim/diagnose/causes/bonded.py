@@ -11,7 +11,7 @@ check's (:func:`sim.checks.phasing.check_phasing`, the fewest settings to change
 """
 from __future__ import annotations
 
-from sim.diagnose.cause import Cause
+from sim.diagnose.cause import Cause, ref
 from sim.diagnose.facts import RunFacts
 from sim.diagnose.groups import EpisodeGroup
 from sim.model import Finding
@@ -53,8 +53,10 @@ def find(facts: RunFacts, claimed: set) -> list[Cause]:
         where = j.name
         sections = tuple(s for s in facts.scn.track.sections
                          if set(facts.protection_chain(s)) & set(devs))
+        same = facts.phasing_finding(j, naming=True)
         causes.append(Cause(
             Finding("error", "RF-RUN-032", where, msg, fix,
+                    same_as=ref(same) if same is not None and same.severity == "error" else "",
                     count=max(1, len(eps)),
                     first_s=min((e.start_s for e in eps), default=None),
                     last_s=max((e.start_s for e in eps), default=None)),

@@ -1,14 +1,18 @@
 """Scheduled shorts and overloads: the wrong device clearing them, or clearing them late.
 
-RF-RUN-039 (warning; an error when the district it darkens is dark for most of
-the run)
+RF-RUN-039 (error)
     A short (a scenario fault, or an overload during one) was cleared by a
     device further up the feed chain than the device nearest it: the whole
-    larger district went dark (US Army TM 5-811-14 section 4-1: the device
-    nearest the fault must operate first). The message says why the nearest
-    device did not act (its threshold above the short's current, its delay
-    not shorter than the upstream one's, its sensing full scale) and the fix
-    gives the setting it needs.
+    larger district went dark. A coordination failure (US Army TM 5-811-14
+    section 4-1: the device nearest the fault must operate first), an error as
+    ``railfault check``'s RF-COORD-004/005 is. The message says why the
+    nearest device did not act (its threshold above the short's current, its
+    sensing full scale, its delay not shorter than the upstream one's once
+    sampling is counted) and the fix gives the setting it needs: for a delay,
+    the check's own advice (:func:`sim.checks.coordination.nested_advice`,
+    enough whatever the sample phases: "3.89 ms or less" against a 4 ms
+    delay sampled every 0.1 ms, whose earliest trip is 3.9 ms). Its
+    ``same_as`` names the check's finding of the pair when there is one.
 RF-RUN-041 (warning)
     A long let-through: a short or overload episode that lasted at least
     :data:`LONG_LET_THROUGH_S` before it ended (an inverse-time or thermal delay,
@@ -47,23 +51,35 @@ def fault_section(facts: RunFacts, e):
     return None
 
 
-def _why(facts: RunFacts, near: str, up: str, peak_a: float) -> tuple[str, str]:
-    """Why ``near`` did not clear a short of ``peak_a`` before ``up`` did, and the fix."""
-    nd, ud = facts.scn.device(near), facts.scn.device(up)
+def _why(facts: RunFacts, near: str, up: str, peak_a: float) -> tuple[str, str, tuple]:
+    """Why ``near`` did not clear a short of ``peak_a`` before ``up`` did, the fix, and
+    the static codes that state the same cause."""
+    from sim.checks.coordination import nested_advice
+
+    scn = facts.scn
+    nd, ud = scn.device(near), scn.device(up)
     if nd.trip.i_above_a >= peak_a:
         return (f"{near} trips only above {a_text(nd.trip.i_above_a)} and the short drew "
-                f"{a_text(peak_a)}", f"lower {near}'s trip below {a_text(peak_a)}")
+                f"{a_text(peak_a)}", f"lower {near}'s trip below {a_text(peak_a)}", ())
     if nd.sense.full_scale_a <= nd.trip.i_above_a:
         return (f"{near} reads at most {a_text(nd.sense.full_scale_a)} (full scale), not above "
                 f"its {a_text(nd.trip.i_above_a)} trip",
-                f"raise {near}'s sensing full scale above {a_text(nd.trip.i_above_a)}")
+                f"raise {near}'s sensing full scale above {a_text(nd.trip.i_above_a)}",
+                ("RF-COORD-007",))
+    advice = []
+    if up in scn.boosters or up in scn.breakers:
+        advice = [a.text for a in nested_advice(scn, near, up)]
+    p_u = ud.sense.period_s
+    sampled = (f" sampled every {ms_text(p_u)}" if p_u else "")
     if nd.trip.t_after_s >= ud.trip.t_after_s:
-        return (f"{near} trips after {ms_text(nd.trip.t_after_s)}, not sooner than {up} "
-                f"({ms_text(ud.trip.t_after_s)})",
-                f"set {near}'s trip delay below {ms_text(ud.trip.t_after_s)}")
-    return (f"{near}'s delay is only just shorter than {up}'s once sampling is counted",
-            f"shorten {near}'s trip delay by at least one sample period "
-            f"(see railfault check, RF-COORD-005)")
+        why = (f"{near} trips after {ms_text(nd.trip.t_after_s)}, not sooner than {up} "
+               f"({ms_text(ud.trip.t_after_s)}{sampled})")
+    else:
+        why = (f"{near}'s delay ({ms_text(nd.trip.t_after_s)}) is only just shorter than "
+               f"{up}'s ({ms_text(ud.trip.t_after_s)}{sampled}) once sampling is counted")
+    fix = ("any one of these is enough whatever the sample phases: " + "; or ".join(advice)
+           if advice else f"set {near}'s trip delay below {ms_text(ud.trip.t_after_s)}")
+    return why, fix, ("RF-COORD-004", "RF-COORD-005")
 
 
 def find(facts: RunFacts, claimed: set) -> list[Cause]:
@@ -81,13 +97,19 @@ def find(facts: RunFacts, claimed: set) -> list[Cause]:
     causes = []
     for (where, up, near), eps in groups.items():
         g = EpisodeGroup(where, eps[0].kind, eps)
-        why, fix = _why(facts, near, up, g.peak_a)
+        why, fix, codes = _why(facts, near, up, g.peak_a)
+        same = ""
+        if codes == ("RF-COORD-007",):
+            same = facts.static_ref(codes, facts.scn.where(facts.table(near), near, "sense"))
+        elif codes:
+            same = facts.static_ref(codes, facts.scn.where(facts.table(near), near, "trip"),
+                                    names=(up,))
         msg = (f"{place_word(g.kind)} {where} was cleared by {facts.named(up)}, not by "
                f"{facts.named(near)}, the device nearest it, so all of {up}'s district went "
                f"dark: {why}; {g.describe()}")
         causes.append(Cause(
-            Finding("warning", "RF-RUN-039", where, msg, fix, count=g.count, first_s=g.first_s,
-                    last_s=g.last_s),
+            Finding("error", "RF-RUN-039", where, msg, fix, count=g.count, first_s=g.first_s,
+                    last_s=g.last_s, same_as=same),
             f"the short at {where} is cleared by {up}, not by {near} nearest it",
             episodes=eps, dark=(up,)))
         claimed.update(id(e) for e in eps)

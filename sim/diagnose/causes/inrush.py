@@ -14,8 +14,14 @@ dark for most of the run (a lock-out), else a warning.
 
 The time above the threshold is the trip-window rule
 (:func:`sim.circuit.inrush.time_above_s`, ``tau ln(I_peak / (I_trip - I_steady))``)
-for the locomotives that power up together in the district, as the trip windows
-count them (:mod:`sim.circuit.windows`).
+for the locomotives in the district at the first failed restart: the trains'
+schedules at that instant (:func:`sim.checks.draw.loco_intervals`, the motion
+the run plays), except that a train standing still then (the run's stands,
+:class:`sim.diagnose.runlog.RunLog`) counts where it stood. A train the run
+held up earlier and that runs on behind its schedule is counted by its
+schedule (the run keeps no positions of moving trains). Without a failed
+restart episode, the trip windows' own instant of most draw
+(:mod:`sim.circuit.windows`).
 """
 from __future__ import annotations
 
@@ -49,6 +55,36 @@ def _power_up(facts: RunFacts, dev: str, v_track_v: float):
     return (*train_load(facts.scn, trains, v_track_v), trains)
 
 
+def _power_up_at(facts: RunFacts, dev: str, v_track_v: float, t_s: float):
+    """``(steady_a, inrush_peak_a, tau_s, trains)`` of the locomotives in ``dev``'s
+    district at ``t_s`` (module docstring: schedules, and stands where trains stood)."""
+    from sim.checks.draw import loco_intervals
+    from sim.circuit.inrush import inrush
+
+    scn = facts.scn
+    secs = set(facts.sections_of(dev))
+    ivs = loco_intervals(scn, facts.layout)
+    standing = {}
+    if facts.log is not None:
+        standing = {st.train: st for st in facts.log.stands
+                    if st.t_stop_s <= t_s and (st.t_go_s is None or st.t_go_s > t_s)}
+    on: dict = {}
+    for iv in ivs:
+        st = standing.get(iv.train)
+        here = (set(st.sections) & secs) if st is not None else \
+            (iv.section in secs and iv.t_on_s <= t_s < iv.t_off_s)
+        if here:
+            on[(iv.train, iv.vehicle)] = iv
+    steady = peak = tau = 0.0
+    for iv in on.values():
+        rush_a, tau_s = inrush(scn.rolling_stock[iv.name], v_track_v) \
+            if iv.name in scn.rolling_stock else (0.0, 0.0)
+        steady += iv.draw_a
+        peak += rush_a
+        tau = max(tau, tau_s)
+    return steady, peak, tau, tuple(sorted({t for t, _ in on}))
+
+
 def find(facts: RunFacts, claimed: set) -> list[Cause]:
     scn = facts.scn
     per_dev: dict[str, int] = {}
@@ -66,19 +102,24 @@ def find(facts: RunFacts, claimed: set) -> list[Cause]:
         trip = scn.device(dev).trip
         sup = supply_of(scn, dev)
         v = scn.supplies[sup].v_emf_v if sup in scn.supplies else 0.0
-        steady_a, peak_a, tau_s, trains = _power_up(facts, dev, v)
+        first = min((e.start_s for e in eps), default=None)
+        last = max((e.start_s for e in eps), default=None)
+        if first is not None:
+            steady_a, peak_a, tau_s, trains = _power_up_at(facts, dev, v, first)
+            then = f" at {t_text(first)}"
+        else:
+            steady_a, peak_a, tau_s, trains = _power_up(facts, dev, v)
+            then = ""
         t_over_s = time_above_s(steady_a, peak_a, tau_s, trip.i_above_a)
-        dark_s = facts.dark_s(dev)
+        dark_s = facts.district_dark_s(dev)
         gave_up = facts.count(dev, "give_up") > 0
         msg = (f"{facts.named(dev)} cannot restart: the keep-alive capacitors of the trains in "
-               f"its district ({', '.join(trains) or 'none'}) charge at "
+               f"its district{then} ({', '.join(trains) or 'none'}) charge at "
                f"{a_text(peak_a)} in all ({v:g} V over each charging resistance), time constant "
                f"{ms_text(tau_s)}, on top of {a_text(steady_a)} running draw, and stay above its "
                f"{a_text(trip.i_above_a)} trip for {ms_text(t_over_s)}, longer than its "
                f"{ms_text(trip.t_after_s)} delay: {plural(n, 'restart')} tripped again on inrush "
                f"alone")
-        first = min((e.start_s for e in eps), default=None)
-        last = max((e.start_s for e in eps), default=None)
         if first is not None:
             msg += f" (from {t_text(first)} to {t_text(last)})"
         if gave_up:

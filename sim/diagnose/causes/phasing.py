@@ -11,7 +11,7 @@ mends all its joints); the shorts at each joint are grouped under it.
 """
 from __future__ import annotations
 
-from sim.diagnose.cause import Cause
+from sim.diagnose.cause import Cause, ref
 from sim.diagnose.facts import RunFacts
 from sim.diagnose.groups import EpisodeGroup
 from sim.diagnose.text import plural
@@ -58,9 +58,12 @@ def find(facts: RunFacts, claimed: set) -> list[Cause]:
                 f"{plural(len(eps), 'short')}"
                 + (f", tripping {', '.join(acted)}" if acted else "")
                 + (f" (and {plural(len(names) - 1, 'more gap')})" if len(names) > 1 else ""))
+        same = [facts.phasing_finding(joints[n], naming=True) for n in names]
         causes.append(Cause(
             Finding("error", "RF-RUN-031", first, msg, fix, count=len(eps),
-                    first_s=min(e.start_s for e in eps), last_s=max(e.start_s for e in eps)),
+                    first_s=min(e.start_s for e in eps), last_s=max(e.start_s for e in eps),
+                    same_as=ref(same[0]) if same[0] is not None and same[0].severity == "error"
+                    else ""),
             head, episodes=eps, dark=acted))
         claimed.update(id(e) for e in eps)
     return causes

@@ -14,10 +14,15 @@ reversing controller.
 Read from the episodes (``dropout`` / ``tripped`` with ``acted`` a supply)
 and, for the undervoltage drop-outs that no episode records, from the event
 summary (``dropout`` of each booster, ``limit`` and ``off`` of the supply).
+A race at a reversing gap that the supply acted first in is the supply's only
+when mending the supply would win it
+(:func:`sim.diagnose.causes.race.lost_without`); otherwise the reversing
+controller is a cause of its own (RF-RUN-036) and claims it.
 """
 from __future__ import annotations
 
 from sim.diagnose.cause import Cause
+from sim.diagnose.causes.race import lost_without
 from sim.diagnose.facts import RunFacts
 from sim.diagnose.groups import EpisodeGroup
 from sim.diagnose.text import a_text, ms_text, plural, t_text
@@ -32,7 +37,7 @@ def find(facts: RunFacts, claimed: set) -> list[Cause]:
     for s, sup in scn.supplies.items():
         on_it = [b for b, bst in scn.boosters.items() if bst.supply == s]
         eps = [e for e in facts.episodes if id(e) not in claimed and e.acted == s
-               and e.outcome in ("dropout", "tripped")]
+               and e.outcome in ("dropout", "tripped") and not lost_without(facts, e, (s,))]
         drops = {b: facts.count(b, "dropout") for b in on_it}
         drops = {b: n for b, n in drops.items() if n}
         n_limit = facts.count(s, "limit")
