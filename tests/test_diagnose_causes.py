@@ -263,7 +263,14 @@ def test_a_slow_relay_is_its_own_cause_beside_a_small_supply():
     so the race is still lost by 5.1 - 4 = 1.1 ms: two causes, neither under the other."""
     res = _run("slow-relay-small-supply")
     causes = _causes(res)
-    assert sorted(f.code for f in causes) == ["RF-RUN-033", "RF-RUN-036"]
+    # a third, static cause the run cannot disprove: rev's own trip (3 ms from its reclose
+    # after 0.1 + 5 + 1 = 6.1 ms, so 9.1 ms) is later than psu's switch-off on a fault in
+    # its own section (6.1 + 2 = 8.1 ms), and no such fault is played
+    assert sorted(f.code for f in causes) == ["RF-COORD-010", "RF-RUN-033", "RF-RUN-036"]
+    (static_rev,) = [f for f in causes if f.code == "RF-COORD-010"]
+    assert static_rev.where.startswith("reversers.rev.trip")
+    # the supply's switch-off is check's RF-COORD-010 for east (4 ms > 2 ms): listed once
+    assert _one(res, "RF-RUN-033").same_as.startswith("RF-COORD-010 boosters.east.trip")
     relay = _one(res, "RF-RUN-036")
     assert not relay.because
     assert "the race is still lost by 1.100 ms, so mending psu alone does not win it" \
@@ -276,7 +283,7 @@ def test_a_slow_relay_is_its_own_cause_beside_a_small_supply():
     (gap,) = [f for f in res.findings if f.code == "RF-RUN-001"]
     assert gap.because == "RF-RUN-036 reversers.rev (line 34)"
     assert "worst margin -3.100 ms" in gap.message
-    assert len(res.headline) == 2
+    assert len(res.headline) == 3
 
 
 def test_keep_alive_inrush_counts_the_trains_there_at_the_restart():

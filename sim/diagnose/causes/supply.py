@@ -21,7 +21,7 @@ controller is a cause of its own (RF-RUN-036) and claims it.
 """
 from __future__ import annotations
 
-from sim.diagnose.cause import Cause
+from sim.diagnose.cause import Cause, ref
 from sim.diagnose.causes.race import lost_without
 from sim.diagnose.facts import RunFacts
 from sim.diagnose.groups import EpisodeGroup
@@ -92,9 +92,15 @@ def find(facts: RunFacts, claimed: set) -> list[Cause]:
                         f"trips first")
         dark = tuple([s] + on_it)
         n = len(eps) or sum(drops.values()) or n_off or n_limit
+        # check's RF-COORD-010 (a booster on it slower than its switch-off) is this cause
+        same = ""
+        if switched:
+            same = next((ref(f) for b in on_it for f in facts.static_with("RF-COORD-010")
+                         if f.severity == "error"
+                         and f.where.split(" (line")[0] == f"boosters.{b}.trip"), "")
         causes.append(Cause(
             Finding("error", "RF-RUN-033", s, what, fix, count=max(1, n), first_s=first,
-                    last_s=last),
+                    last_s=last, same_as=same),
             f"supply {s} at its {a_text(limit_a)} limit "
             + ("switches off, taking down " if switched else "browns out ")
             + ", ".join(on_it if switched or not drops else drops)
