@@ -27,8 +27,10 @@ Usage::
     python -m tests.golden_runs save DIR [--only PREFIX] [--jobs N]
     python -m tests.golden_runs compare DIR [--only PREFIX] [--jobs N]
 
-``compare`` prints the first differing key path and both values of each case
-that differs, and exits 1 when any does.
+``compare`` prints, for each case that differs, either that only floats differ
+(how many, and the largest difference relative to the larger value or to 1,
+with its key path) or the first
+key path where anything else differs; it exits 1 when any case differs.
 """
 from __future__ import annotations
 
@@ -227,7 +229,9 @@ def result_text(factory, with_traces: bool) -> str:
         rec = TraceRecorder()
         engine.run(scn, traces=rec, event_budget=BUDGET)
         out["traces"] = _traces_dict(rec)
-    return json.dumps(out, indent=0)
+    # the scenario path is absolute: store it relative to the checkout, so that
+    # results from two worktrees (before and after a change) compare
+    return json.dumps(out, indent=0).replace(json.dumps(str(ROOT))[1:-1], "<ROOT>")
 
 
 def _first_diff(a, b, path="$"):
@@ -256,6 +260,41 @@ def _first_diff(a, b, path="$"):
 _CASES: dict = {}
 
 
+def float_diffs(a, b, path="$", out=None):
+    """Every float of ``a`` and ``b`` that differs, as ``(path, a, b)``, when the two
+    agree in everything else (keys, lengths, strings, integers); ``None`` when
+    they differ in anything else."""
+    out = [] if out is None else out
+    if isinstance(a, float) and isinstance(b, float):
+        if a != b:
+            out.append((path, a, b))
+        return out
+    if type(a) is not type(b):
+        return None
+    if isinstance(a, dict):
+        if list(a) != list(b):
+            return None
+        for k in a:
+            if float_diffs(a[k], b[k], f"{path}.{k}", out) is None:
+                return None
+        return out
+    if isinstance(a, list):
+        if len(a) != len(b):
+            return None
+        for i, (x, y) in enumerate(zip(a, b)):
+            if float_diffs(x, y, f"{path}[{i}]", out) is None:
+                return None
+        return out
+    return out if a == b else None
+
+
+def _rel(a: float, b: float) -> float:
+    """The difference relative to the larger value, or to 1 below it (a current or
+    voltage under 1 A or 1 V compared in absolute terms: rounding noise on a
+    numerical zero is not a large relative change)."""
+    return abs(a - b) / max(abs(a), abs(b), 1.0)
+
+
 def _work(args):
     mode, folder, name = args
     factory, traces = _CASES[name]
@@ -271,7 +310,14 @@ def _work(args):
         return name, wall, None
     if old is None:
         return name, wall, "no stored result"
-    return name, wall, repr(_first_diff(json.loads(old), json.loads(text)))[:600]
+    a, b = json.loads(old), json.loads(text)
+    floats = float_diffs(a, b)
+    if floats is not None:
+        worst = max(floats, key=lambda d: _rel(d[1], d[2]))
+        return name, wall, (f"floats only: {len(floats)} differ, largest relative "
+                            f"{_rel(worst[1], worst[2]):.2e} at {worst[0]} "
+                            f"({worst[1]!r} -> {worst[2]!r})")
+    return name, wall, "STRUCTURE " + repr(_first_diff(a, b))[:600]
 
 
 def main(argv=None) -> int:
@@ -299,7 +345,9 @@ def main(argv=None) -> int:
     for n, d in bad:
         print(f"DIFFERS {n}: {d}")
     if a.mode == "compare":
-        print(f"{len(done) - len(bad)} identical, {len(bad)} differ")
+        n_float = sum(1 for _, d in bad if d.startswith("floats only"))
+        print(f"{len(done) - len(bad)} identical, {n_float} differ in floats only, "
+              f"{len(bad) - n_float} differ in more")
     return 1 if bad else 0
 
 
