@@ -377,6 +377,18 @@ class Circuit:
         if i_limit_a is not None:
             self._sup_cc[i] = float(i_limit_a)
 
+    def device_state(self, name: str) -> tuple[bool, bool]:
+        """``(closed, swapped)`` of a device's output, as :meth:`set_device` left it."""
+        i = self._dev_pos[name]
+        return bool(self._closed[i]), bool(self._swapped[i])
+
+    def supply_state(self, name: str) -> tuple[bool, float, float]:
+        """``(on, v_emf_v, i_cc_a)`` of a supply, as :meth:`set_supply` left it;
+        ``i_cc_a`` is the current it is held at in constant-current mode, ``math.inf``
+        when it regulates its voltage."""
+        i = self._sup_pos[name]
+        return bool(self._sup_on[i]), float(self._sup_v[i]), float(self._sup_cc[i])
+
     def set_bridge(self, key, joint_index: int, rail: str, r_ohm: float) -> None:
         """Wheels joining the rail ends of a gapped joint (``rail``: left/right/both,
         as seen from the joint's ``ends[0]`` into its section)."""
