@@ -275,8 +275,9 @@ def test_bench_one_hour_memory():
     rss_mb = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024.0
     print(f"\n[bench] one hour, 200 sections, 30 trains: {engine_events(res)} events "
           f"({loose_events(res)} records + circuit changes) in "
-          f"{wall:.1f} s; traced peak {peak / 2**20:.1f} MB (target < 500 MB); "
-          f"process max RSS {rss_mb:.0f} MB; episodes {len(res.episodes)}")
+          f"{wall:.1f} s under tracemalloc; traced peak {peak / 2**20:.1f} MB (target < 500 MB); "
+          f"max RSS of this pytest process so far {rss_mb:.0f} MB (the session's own: "
+          f"test_bench_one_hour_versus_million_simpy_timeouts); episodes {len(res.episodes)}")
     assert res.events is None
 
 
