@@ -1,7 +1,8 @@
 """Events, the bounded event summary, and the run Result with its JSON.
 
 A run produces a stream of :class:`Event` records (device transitions, shorts
-opening and closing, trains stopping and going on, faults). Without
+opening and closing, trains stopping and going on, faults; the record is defined
+with the devices in :mod:`sim.devices.events` and re-exported here). Without
 ``keep_events`` the stream is *summarised as it happens* by
 :class:`EventSummary` - a count and the first and last instant per
 ``(device, event)`` pair - so that memory stays bounded by the number of
@@ -22,9 +23,10 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
-from types import MappingProxyType
-from typing import Iterable, Mapping, NamedTuple, Optional
+from typing import Iterable, Optional
 
+from sim.devices.events import Event  # noqa: F401  (re-exported: the record of a run)
+from sim.jsonsafe import clean, num
 from sim.model import Finding
 # The verdict rule and the per-episode findings live in sim.verdict and sim.diagnose;
 # these names stay importable from here until every caller has moved.
@@ -44,66 +46,9 @@ SWAP_EVENTS = frozenset({"swapped"})
 RESTART_EVENTS = frozenset({"restart"})
 
 
-def _num(x: Optional[float]) -> Optional[float]:
-    """A JSON-safe float: ``None`` for ``None``, infinities and NaN."""
-    if x is None:
-        return None
-    x = float(x)
-    if math.isnan(x) or math.isinf(x):
-        return None
-    return x
-
-
-def _clean(value):
-    """Recursively make ``value`` JSON-safe (floats finite, tuples as lists)."""
-    if isinstance(value, float):
-        return _num(value)
-    if isinstance(value, Mapping):
-        return {str(k): _clean(v) for k, v in value.items()}
-    if isinstance(value, (list, tuple)):
-        return [_clean(v) for v in value]
-    if isinstance(value, (str, int, bool)) or value is None:
-        return value
-    if hasattr(value, "item"):  # numpy scalars
-        return _clean(value.item())
-    return str(value)
-
-
-# ----------------------------------------------------------------- events
-_NO_DATA: Mapping = MappingProxyType({})
-
-
-class Event(NamedTuple):
-    """One thing that happened at ``t_s``.
-
-    ``device`` names what it happened to: a device, a train, or the place of a
-    short (a joint name such as ``"east-main.b~wye-east.a"``, or
-    ``"section@12 m"`` for a fault). ``event`` is the kind: the device event
-    kinds of :mod:`sim.devices` (``detect``, ``trip``, ``swap_start``,
-    ``swapped``, ``reclose``, ``restart``, ``give_up``, ``thermal_trip``,
-    ``thermal_resume``, ``limit``, ``off``, ``on``, ``dropout``, ``reset``)
-    and the world's own: ``short`` / ``cleared`` (a short episode opens /
-    closes), ``fault`` / ``fault_end`` / ``open`` (scenario faults), ``stop`` /
-    ``go`` (a train without / with power again), ``inrush`` (keep-alive
-    capacitors charging at a restart), ``end`` (the end of the run).
-    A named tuple: cheap to make, immutable.
-    """
-
-    t_s: float
-    device: str
-    event: str
-    data: Mapping = _NO_DATA
-
-    def as_dict(self) -> dict:
-        d = {"t_s": _num(self.t_s), "device": self.device, "event": self.event}
-        for k, v in self.data.items():
-            if k not in d:
-                d[k] = _clean(v)
-        return d
-
-    def as_tuple(self) -> tuple[float, str]:
-        """``(t_s, event)``, the shape of the exact event logs in the tests."""
-        return (self.t_s, self.event)
+# JSON-safe values (one implementation, below the devices: sim/jsonsafe.py)
+_num = num
+_clean = clean
 
 
 @dataclass

@@ -186,22 +186,31 @@ def test_constant_current_supply_collapses_voltage():
     assert c.update().short_i_a["k"] == pytest.approx(unlimited, rel=1e-10)
 
 
-def test_update_limited_applies_the_scenario_limit():
+def test_the_scenario_limit_in_constant_current_mode():
+    # the circuit's part of a supply limit: over_limit names the supply above its
+    # scenario limit; in constant-current mode at the limit it delivers exactly the
+    # limit and its terminal voltage is what the load makes of it; back in voltage
+    # mode the terminal voltage is V - R_SUP * I (hand derivation, Thevenin source).
+    # When to switch mode is the world's supply loop (test_engine_run.py,
+    # test_constant_current_limit_holds_the_current).
     scn = scenario([supply("p", V, R_SUP, limit=3.0)], [booster("b", "p", r_out=R_OUT)],
                    [section("s", 10.0, "b", [(0.0, W20)])])
     c = build_circuit(scn)
     c.set_load("train", "s", 4.0, 40.0)          # 0.4 A: below the limit
-    sol = c.update_limited()
+    sol = c.update()
     assert sol.supply_i_a["p"] < 3.0 and not sol.over_limit
     c.set_short("k", "s", 8.0, 0.01)
     assert c.update().over_limit == ("p",)
-    sol = c.update_limited()
-    assert sol.supply_i_a["p"] == pytest.approx(3.0)
-    assert sol.supply_v_v["p"] < 2.0
+    c.set_supply("p", i_limit_a=3.0)
+    assert c.supply_state("p") == (True, V, 3.0)
+    for sol in both(c):
+        assert sol.supply_i_a["p"] == pytest.approx(3.0)
+        assert sol.supply_v_v["p"] < 2.0
     c.clear_short("k")
-    sol = c.update_limited()
-    assert sol.supply_i_a["p"] < 3.0
-    assert sol.supply_v_v["p"] == pytest.approx(V - R_SUP * sol.supply_i_a["p"], rel=1e-9)
+    c.set_supply("p", i_limit_a=math.inf)
+    for sol in both(c):
+        assert sol.supply_i_a["p"] < 3.0 and not sol.over_limit
+        assert sol.supply_v_v["p"] == pytest.approx(V - R_SUP * sol.supply_i_a["p"], rel=1e-9)
 
 
 def test_load_inside_a_segment_is_exact():

@@ -1,4 +1,4 @@
-"""The event engine against the plain fixed-step reference (sim.world.fixedstep).
+"""The event engine against the plain fixed-step reference (tests/fixedstep.py).
 
 The reference re-implements the device logic independently and steps a clock;
 the two must agree on outcomes (the same device events, in the same order,
@@ -14,7 +14,7 @@ import pytest
 
 from sim.scenario import load
 from sim.world import run
-from sim.world.fixedstep import RefResult, simulate
+from fixedstep import RefResult, simulate
 
 from pathlib import Path
 

@@ -6,7 +6,8 @@ Public API
 - :class:`~sim.circuit.network.Circuit`: ``set_device``, ``set_supply``,
   ``set_bridge``/``clear_bridge``, ``set_load``/``clear_load``,
   ``set_short``/``clear_short``, ``set_feeder_open``; ``solve()`` (full),
-  ``update()`` (incremental), ``update_limited()``.
+  ``update()`` (incremental);
+  ``device_state``, ``supply_state`` (the switching state, read).
 - :func:`check_findings` ``(scn, layout=None, step_m=0.5) -> (findings, fault_current_rows)``
 - :mod:`sim.circuit.faultmap`, :mod:`sim.circuit.windows`, :mod:`sim.circuit.voltage`,
   :mod:`sim.circuit.conductors`, :mod:`sim.circuit.inrush`, :mod:`sim.circuit.spice`.

@@ -26,8 +26,8 @@ constant-current mode: a current source of ``x`` with no internal conductance,
 so the solution gives the collapsed voltage; ``math.inf`` restores voltage
 mode. ``supply_i_a`` in voltage mode is the unlimited current, and
 ``Solution.over_limit`` names the supplies above their scenario limit;
-:meth:`Circuit.update_limited` applies the limits in an active-set loop. A
-supply switched off keeps its internal resistance but no EMF.
+the world's supply loop (``sim.world.engine.World._solve_supplies``, the one
+implementation) puts a supply into and out of that mode. A supply switched off keeps its internal resistance but no EMF.
 
 Finding codes (this module)
 ---------------------------
@@ -376,6 +376,18 @@ class Circuit:
             self._sup_v[i] = float(v_emf_v)
         if i_limit_a is not None:
             self._sup_cc[i] = float(i_limit_a)
+
+    def device_state(self, name: str) -> tuple[bool, bool]:
+        """``(closed, swapped)`` of a device's output, as :meth:`set_device` left it."""
+        i = self._dev_pos[name]
+        return bool(self._closed[i]), bool(self._swapped[i])
+
+    def supply_state(self, name: str) -> tuple[bool, float, float]:
+        """``(on, v_emf_v, i_cc_a)`` of a supply, as :meth:`set_supply` left it;
+        ``i_cc_a`` is the current it is held at in constant-current mode, ``math.inf``
+        when it regulates its voltage."""
+        i = self._sup_pos[name]
+        return bool(self._sup_on[i]), float(self._sup_v[i]), float(self._sup_cc[i])
 
     def set_bridge(self, key, joint_index: int, rail: str, r_ohm: float) -> None:
         """Wheels joining the rail ends of a gapped joint (``rail``: left/right/both,
@@ -968,28 +980,3 @@ class Circuit:
             short_i_a=mp(out[True][1]), short_v_v=mp(out[True][0]),
             findings=tuple(findings), over_limit=over, kcl_residual_a=resid, method=method,
             bridge_rail_i_a=mp(br_rails), kcl_ok=kcl_ok)
-
-    # ------------------------------------------------------------ limits
-    def update_limited(self, full: bool = False) -> Solution:
-        """Solve with every supply's scenario current limit applied (constant-current).
-
-        An active-set loop: a supply above its limit goes to constant-current
-        mode at the limit; one in that mode whose terminal voltage would exceed
-        its EMF goes back to voltage mode. Returns the settled solution.
-        """
-        solve = self.solve if full else self.update
-        sol = solve()
-        for _ in range(2 * len(self._sup_names) + 2):
-            changed = False
-            for i, name in enumerate(self._sup_names):
-                if math.isfinite(self._sup_cc[i]):
-                    if sol.supply_v_v[name] > self._sup_v[i] * (self._sup_on[i]):
-                        self._sup_cc[i] = math.inf
-                        changed = True
-                elif name in sol.over_limit:
-                    self._sup_cc[i] = self._sup_limit[i]
-                    changed = True
-            if not changed:
-                return sol
-            sol = solve()
-        return sol

@@ -86,26 +86,26 @@ def to_netlist(c: Circuit, title: str = "railfault circuit") -> tuple[str, dict]
             i = ts.index(t)
             meter((kind, key), f"x{si}_l{i}", f"x{si}_r{i}", 1.0 / a.y_s)
     # supplies
-    for i, name in enumerate(c._sup_names):
-        s = topo.supplies[name]
-        if math.isfinite(c._sup_cc[i]):
+    for name, s in topo.supplies.items():
+        on, v_emf_v, i_cc_a = c.supply_state(name)
+        if math.isfinite(i_cc_a):
             cs = fresh("isrc")
-            lines.append(f"I{cs} {nn(s.n)} {nn(s.p)} DC {float(c._sup_cc[i]):.17g}")
+            lines.append(f"I{cs} {nn(s.n)} {nn(s.p)} DC {i_cc_a:.17g}")
             edges.append((nn(s.n), nn(s.p)))
             probes[("supply", name)] = None
-            probes[("supply_cc", name)] = float(c._sup_cc[i])
+            probes[("supply_cc", name)] = i_cc_a
         else:
-            emf = float(c._sup_v[i]) if c._sup_on[i] else 0.0
+            emf = v_emf_v if on else 0.0
             internal = fresh("e")
             lines.append(f"V{fresh('src')} {internal} {nn(s.n)} DC {emf:.17g}")
             edges.append((internal, nn(s.n)))
             meter(("supply", name), internal, nn(s.p), float(s.r_ohm))
     # device leads
-    for i, name in enumerate(c._dev_names):
-        d = topo.devices[name]
-        if not c._closed[i]:
+    for name, d in topo.devices.items():
+        closed, swapped = c.device_state(name)
+        if not closed:
             continue
-        ta, tb = (d.b, d.a) if c._swapped[i] else (d.a, d.b)
+        ta, tb = (d.b, d.a) if swapped else (d.a, d.b)
         meter(("lead", name, 0), nn(d.o_l), nn(ta), 1.0 / d.g_lead_s)
         meter(("lead", name, 1), nn(d.o_r), nn(tb), 1.0 / d.g_lead_s)
     for key, f in topo.feeders.items():

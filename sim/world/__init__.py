@@ -4,7 +4,7 @@
 returns its :class:`sim.trace.Result` diagnosed (:func:`sim.diagnose.diagnose`:
 one finding per cause, the headline, the verdict); :func:`sim.world.render.render_text`
 prints it for people. Trains in closed form live in :mod:`sim.world.trains`,
-the plain fixed-step reference used by the tests in :mod:`sim.world.fixedstep`.
+the plain fixed-step reference, a test oracle, lives with the tests (``tests/fixedstep.py``).
 """
 from typing import Optional
 

@@ -16,6 +16,12 @@ each, two boosters on one supply, gapped on both rails between districts).
 3. The update cost on a 500-section layout with 0, 10, 100 and 300 active
    loads (one load moved per update), as ratios to the 0-load update and to a
    full solve of the same state.
+4. The engine against ngspice's transient analysis of the same circuit: the
+   electrical part of a reversing-loop scenario (``scenarios/balloon-solid.yaml``)
+   with its first bridge as a switched resistance (a voltage-controlled switch
+   closed while the engine's bridge stands), at a 10 us step over 1 s around the
+   bridge, scaled to the scenario's duration (a fixed step costs the same each
+   step); skipped where ngspice is not installed.
 """
 from __future__ import annotations
 
@@ -134,3 +140,98 @@ def test_bench_update_cost_with_many_active_loads():
               f"{t_full * 1e3:8.3f} ms; ratio to 0 loads {t_upd / t0:7.1f}, "
               f"ratio update/full {t_upd / t_full:.3f}")
     print(f"  re-factorings (folds) {c.rebases}, parts factored {c.parts_factored}")
+
+
+def _bridge_of(scn):
+    """The first bridge the engine places in a run of ``scn``: ``(t_on_s, t_off_s,
+    joint_index, rail, r_ohm)`` (``t_off_s`` the end of the run if it stays)."""
+    from unittest import mock
+
+    from sim.world.engine import World
+
+    seen: dict = {}
+    place, lift = World.set_bridge, World.clear_bridge
+
+    def on(world, key, joint_index, rail, r_ohm, path):
+        if not seen:
+            seen.update(key=key, t_on_s=world.env.now, joint=joint_index, rail=rail,
+                        r_ohm=r_ohm)
+        return place(world, key, joint_index, rail, r_ohm, path)
+
+    def off(world, key):
+        if seen.get("key") == key and "t_off_s" not in seen:
+            seen["t_off_s"] = world.env.now
+        return lift(world, key)
+
+    with mock.patch.object(World, "set_bridge", on), \
+            mock.patch.object(World, "clear_bridge", off):
+        World(scn).run()
+    return (seen["t_on_s"], seen.get("t_off_s", scn.duration_s), seen["joint"], seen["rail"],
+            seen["r_ohm"])
+
+
+def test_bench_engine_versus_ngspice_transient():
+    # the electrical part of a reversing-loop scenario (scenarios/balloon-solid.yaml)
+    # with its bridge as a switched resistance, in ngspice's transient analysis at a
+    # 10 us step; the engine runs the whole scenario (devices, trains and all)
+    import re
+    import shutil
+    import subprocess
+    import tempfile
+
+    from sim.circuit.spice import to_netlist
+    from sim.scenario import load
+    from sim.world import engine
+
+    exe = shutil.which("ngspice")
+    if exe is None:
+        pytest.skip("ngspice not installed")
+    scn = load(Path(__file__).resolve().parents[2] / "scenarios" / "balloon-solid.yaml")
+    walls = []
+    for _ in range(3):
+        t0 = time.perf_counter()
+        engine.run(scn)
+        walls.append(time.perf_counter() - t0)
+    t_engine = min(walls)
+    t_on, t_off, joint, rail, r_ohm = _bridge_of(scn)
+    c = build_circuit(scn)
+    c.set_bridge("bench", joint, rail, r_ohm)
+    text, probes = to_netlist(c)
+    lines = text.splitlines()
+    # the bridge's ammeter line is followed by its resistor: make that a switch
+    # closed (r_ohm) from t_on to t_off, open (1 GOhm) otherwise
+    span_s = 1.0                       # ngspice over 1 s around the bridge (below)
+    t0_s = max(0.0, t_on - 0.5)
+    for k in (("bridge", "bench", 0), ("bridge", "bench", 1)):
+        if k not in probes:
+            continue
+        i = next(n for n, ln in enumerate(lines) if ln.startswith(probes[k] + " "))
+        _, a, b, r = lines[i + 1].split()
+        lines[i + 1] = f"S{k[2]}br {a} {b} ctl 0 swbr"
+    lines.insert(1, f".model swbr sw(vt=0.5 vh=0.1 ron={r} roff=1e9)")
+    lines.insert(1, f"Vctl ctl 0 PWL(0 0 {t_on - t0_s:.9g} 0 {t_on - t0_s + 1e-6:.9g} 1 "
+                    f"{t_off - t0_s:.9g} 1 {t_off - t0_s + 1e-6:.9g} 0)")
+    start = lines.index(".control")
+    end = lines.index(".endc")
+    lines[start:end + 1] = [".control", f"tran 10u {span_s} 0 10u", "print length(time)", ".endc"]
+    with tempfile.TemporaryDirectory() as tmp:
+        path = Path(tmp) / "tran.cir"
+        path.write_text("\n".join(lines) + "\n")
+        t0 = time.perf_counter()
+        out = subprocess.run([exe, "-b", str(path)], capture_output=True, text=True,
+                             timeout=1200, cwd=tmp)
+        t_spice = time.perf_counter() - t0
+    # (ngspice -b exits 1 after a .control block: "no simulations run" of the netlist's
+    # own analyses; the transient ran when it printed the number of time points)
+    points = re.search(r"length\(time\) = ([-+0-9.eE]+)", out.stdout)
+    assert points, out.stdout[-2000:] + out.stderr[-2000:]
+    per_s = t_spice / span_s
+    t_spice_full = per_s * scn.duration_s
+    print(f"\n[bench] reversing loop (balloon-solid, {scn.duration_s:g} s simulated, "
+          f"{c.n_nodes} nodes, bridge {r_ohm:g} ohm from {t_on:.4f} s to {t_off:.4f} s): "
+          f"engine {t_engine * 1e3:.1f} ms for the whole run; ngspice transient at 10 us "
+          f"{t_spice:.2f} s for {span_s:g} s simulated ({float(points.group(1)):.0f} time "
+          f"points), {t_spice_full:.0f} s for "
+          f"{scn.duration_s:g} s at the same cost per simulated second (a fixed step "
+          f"costs the same each step); ratio ngspice/engine = {t_spice_full / t_engine:,.0f}x "
+          f"(target >= 1000x)")

@@ -2,7 +2,12 @@
 
 Each benchmark PRINTS a ratio against a reference measured in the same
 process (plain simpy timeouts, a 10-section layout, the fixed-step
-reference); none of them is a timed pass/fail test. The layouts are
+reference); none of them is a timed pass/fail test. Issue 11's targets are
+printed beside them: a real event on a small layout at most 50 us; the
+one-hour session of 200 sections and 30 trains no slower than one million
+plain simpy timeouts, under 200 MB resident; per-event cost at 1,000 sections
+and 100 trains at most 2 times that at 10; the fixed-step ratio at least
+1,000 (``bench_circuit.py`` prints the ngspice ratio). The layouts are
 generated, invented ones: a line of sections, ten to a district, one booster
 per district, five boosters to a supply, every section a block gapped on both
 rails; trains of a pickup locomotive and two lighted coaches run along it;
@@ -26,8 +31,10 @@ from __future__ import annotations
 
 import gc
 import resource
+import sys
 import time
 import tracemalloc
+from pathlib import Path
 
 import pytest
 import simpy
@@ -37,7 +44,9 @@ from sim.model import (Booster, End, Fault, Feed, Feeder, Joint, Rail, Restart, 
                        Breaker, frozen_map)
 from sim.world import run
 from sim.world.engine import World
-from sim.world.fixedstep import simulate
+
+sys.path.insert(0, str(Path(__file__).resolve().parents[1]))    # tests/: the fixed-step oracle
+from fixedstep import simulate  # noqa: E402
 
 pytestmark = pytest.mark.bench
 
@@ -188,6 +197,16 @@ def test_bench_event_rate_small_layout():
           f"[bench]   earlier count (records + circuit changes): {n_loose} in {wall:.3f} s = "
           f"{n_loose / wall:,.0f} /s, ratio {n_loose / wall / ref:.3f}; runs "
           f"{', '.join(f'{x:.3f}' for x in walls)} s")
+    # issue 11's target: a real event (one that changes the circuit: a train's load
+    # moved, a bridge, a short) on a small layout at most 50 us; 10 sections, 1 train
+    # with draw, shorts every 0.5 s (the per-event benchmark's small layout)
+    real = [_per_event_us(10, 1, 20.0) for _ in range(3)]
+    us, _, n_real, res_real, _ = min(real, key=lambda r: r[0])
+    n_solved = res_real.stats["solves"] - res_real.stats["cache_hits"]
+    print(f"[bench]   real events, 10 sections, 1 train, shorts every 0.5 s: {n_real} events "
+          f"({res_real.stats['topology']} topology changes, {n_solved} solves not from the "
+          f"cache) at {us:.1f} us an event (target <= 50 us); "
+          f"plain simpy timeout {1e6 / ref:.2f} us; ratio event/timeout = {us * ref / 1e6:.0f}")
     ops, calls = bytecodes_per_event(replace(scn, duration_s=2.5))
     print(f"[bench]   per event (2.5 s of the same run, traced): {ops:,.0f} CPython bytecodes, "
           f"{calls:.1f} Python calls")
@@ -205,11 +224,13 @@ def _per_event_us(n_sections, n_trains, duration_s):
 
 
 def test_bench_per_event_cost_scales():
+    # issue 11's target: per-event cost at 1,000 sections and 100 trains at most
+    # 2 times that at 10 sections (printed, not asserted)
     small_us, small_eng, n_s, res_s, wall_s = _per_event_us(10, 1, 20.0)
-    big_us, big_eng, n_b, res, wall_b = _per_event_us(500, 50, 20.0)
+    big_us, big_eng, n_b, res, wall_b = _per_event_us(1000, 100, 20.0)
     print(f"\n[bench] per-event cost: 10 sections/1 train {small_us:.1f} us ({n_s} events); "
-          f"500 sections/50 trains {big_us:.1f} us ({n_b} events); "
-          f"ratio big/small = {big_us / small_us:.2f} (target <= 3)\n"
+          f"1000 sections/100 trains {big_us:.1f} us ({n_b} events); "
+          f"ratio big/small = {big_us / small_us:.2f} (target <= 2)\n"
           f"[bench]   without the circuit solves: {small_eng:.1f} us and {big_eng:.1f} us, "
           f"ratio {big_eng / small_eng:.2f}; circuit solves {res_s.stats['circuit_s']:.3f} s of "
           f"{wall_s:.3f} s and {res.stats['circuit_s']:.3f} s of {wall_b:.3f} s; full solves "
@@ -238,7 +259,7 @@ def test_bench_versus_fixed_step_reference():
                for d in res.devices)
     print(f"\n[bench] {n_dev} devices, 60 s: engine {t_engine:.3f} s, fixed-step 10 us "
           f"reference {t_ref:.1f} s ({ref.steps} steps): speed ratio {t_ref / t_engine:.0f}x "
-          f"(target >= 100x); same trips/swaps/restarts on every device: {same}")
+          f"(target >= 1000x); same trips/swaps/restarts on every device: {same}")
     assert same
 
 
@@ -254,6 +275,53 @@ def test_bench_one_hour_memory():
     rss_mb = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024.0
     print(f"\n[bench] one hour, 200 sections, 30 trains: {engine_events(res)} events "
           f"({loose_events(res)} records + circuit changes) in "
-          f"{wall:.1f} s; traced peak {peak / 2**20:.1f} MB (target < 500 MB); "
-          f"process max RSS {rss_mb:.0f} MB; episodes {len(res.episodes)}")
+          f"{wall:.1f} s under tracemalloc; traced peak {peak / 2**20:.1f} MB (target < 500 MB); "
+          f"max RSS of this pytest process so far {rss_mb:.0f} MB (the session's own: "
+          f"test_bench_one_hour_versus_million_simpy_timeouts); episodes {len(res.episodes)}")
     assert res.events is None
+
+
+def one_hour_layout():
+    """The one-hour session: 200 sections, 30 trains, a short every 30 s."""
+    return line_layout(200, 30, 3600.0, fault_every_s=30.0)
+
+
+def _peak_rss_mb_of_one_hour() -> float:
+    """Peak resident memory of a fresh process that runs the one-hour session (MB).
+
+    Read as ``VmHWM`` from ``/proc/self/status`` (Linux): the high-water mark of the
+    process's own memory since its ``exec``. ``getrusage``'s ``ru_maxrss`` would not
+    do here: it keeps the largest resident size across ``fork`` and ``exec``, that
+    is the size of this pytest process when it started the child.
+    """
+    import subprocess
+
+    here = Path(__file__).resolve().parent
+    code = ("import sys, re; sys.path.insert(0, %r); "
+            "from bench_engine import one_hour_layout; from sim.world import run; "
+            "run(one_hour_layout()); "
+            "print(re.search(r'VmHWM:\\s+(\\d+) kB', open('/proc/self/status').read())[1])"
+            % str(here))
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
+                         check=True, cwd=str(here.parents[1]))
+    return int(out.stdout.split()[-1]) / 1024.0
+
+
+def test_bench_one_hour_versus_million_simpy_timeouts():
+    # issue 11's targets: the one-hour session no slower than one million plain
+    # simpy timeouts in the same process; peak resident memory under 200 MB
+    scn = one_hour_layout()
+    walls, refs = [], []
+    for _ in range(2):                     # shared machine: best of two, interleaved
+        t0 = time.perf_counter()
+        res = run(scn)
+        walls.append(time.perf_counter() - t0)
+        refs.append(1_000_000 / simpy_timeouts_per_s(1_000_000))
+    wall, ref = min(walls), min(refs)
+    rss_mb = _peak_rss_mb_of_one_hour()
+    print(f"\n[bench] one hour, 200 sections, 30 trains: {engine_events(res)} events in "
+          f"{wall:.2f} s ({wall / engine_events(res) * 1e3:.2f} ms an event); one million "
+          f"plain simpy timeouts {ref:.2f} s; ratio session/simpy = {wall / ref:.2f} "
+          f"(target <= 1); peak RSS of a fresh process running it {rss_mb:.0f} MB "
+          f"(target < 200 MB); runs {', '.join(f'{x:.2f}' for x in walls)} s")
+    assert engine_events(res) > 1000
